@@ -1,0 +1,62 @@
+// Moist thermodynamics: constants and pure functions (no I/O, no state).
+// SI units throughout: K, Pa, kg/kg, J/kg. Sources as in METHODS of the README.
+#pragma once
+
+namespace latentlift::thermo {
+
+constexpr double kRd = 287.04;           // J kg-1 K-1, dry air (Bolton 1980)
+constexpr double kRv = 461.5;            // J kg-1 K-1, water vapour (Bolton 1980)
+constexpr double kEps = kRd / kRv;       // ratio of gas constants
+constexpr double kCpd = 1005.7;          // J kg-1 K-1, dry air at constant pressure (Bolton 1980)
+constexpr double kCpv = 1875.0;          // J kg-1 K-1, water vapour at constant pressure
+constexpr double kGravity = 9.80665;     // m s-2, standard gravity (CGPM 1901, SI)
+constexpr double kKappaDry = kRd / kCpd; // Poisson exponent of dry air
+constexpr double kZeroCelsiusK = 273.15; // K
+constexpr double kReferencePressurePa = 100000.0;  // 1000 hPa, theta reference
+
+/// Latent heat of vaporisation, J/kg, at temp_k (Bolton 1980, eq. 2).
+double latent_heat_vaporisation(double temp_k);
+
+/// Saturation vapour pressure over liquid water, Pa (Bolton 1980, eq. 10).
+double saturation_vapour_pressure_pa(double temp_k);
+
+/// Dew point (K) of vapour pressure e_pa: exact inverse of Bolton eq. 10.
+double dew_point_k(double vapour_pressure_pa);
+
+/// Mixing ratio, kg/kg, of vapour pressure e_pa in air at pressure_pa (common practice: r = eps e / (p - e)).
+double mixing_ratio(double vapour_pressure_pa, double pressure_pa);
+
+/// Vapour pressure, Pa, from mixing ratio r (kg/kg) at pressure_pa (inverse of mixing_ratio).
+double vapour_pressure_from_mixing_ratio_pa(double mixing_ratio, double pressure_pa);
+
+/// Vapour pressure, Pa, from specific humidity q (kg/kg): e = q p / (eps + (1 - eps) q).
+double vapour_pressure_from_specific_humidity_pa(double specific_humidity, double pressure_pa);
+
+/// Saturation mixing ratio over liquid water, kg/kg, at (temp_k, pressure_pa) (Bolton eq. 10 + mixing_ratio).
+double saturation_mixing_ratio(double temp_k, double pressure_pa);
+
+/// Virtual temperature, K: Tv = T (1 + r/eps) / (1 + r) (AMS Glossary).
+double virtual_temperature_k(double temp_k, double mixing_ratio);
+
+/// Poisson exponent kappa = (Rd/cpd)(1 - 0.28 r), r in kg/kg (Bolton 1980, eq. 24 form).
+double poisson_kappa(double mixing_ratio);
+
+/// Temperature, K, after dry-adiabatic (Poisson) change from (temp_k, from_pa) to to_pa with exponent kappa.
+double poisson_temperature_k(double temp_k, double from_pa, double to_pa, double kappa);
+
+/// Potential temperature, K, referred to 1000 hPa, with kappa = poisson_kappa(r) (Bolton 1980, eq. 24 form).
+double potential_temperature_k(double temp_k, double pressure_pa, double mixing_ratio);
+
+/// Temperature at the lifting condensation level, K, from temp_k and dew_point_k (Bolton 1980, eq. 15).
+double lcl_temperature_k(double temp_k, double dew_point_k);
+
+/// Pressure of the LCL, Pa: p (T_L / T)^(1/kappa), kappa = poisson_kappa(r) (Bolton 1980).
+double lcl_pressure_pa(double temp_k, double pressure_pa, double lcl_temp_k, double mixing_ratio);
+
+/// Equivalent potential temperature, K (Bolton 1980, eq. 39), from T, Td (K) and p (Pa).
+double equivalent_potential_temperature_k(double temp_k, double dew_point_k, double pressure_pa);
+
+/// Pseudo-adiabatic lapse rate dT/dp, K/Pa, liquid only (AMS Glossary, written in pressure, see METHODS).
+double pseudoadiabatic_dtdp(double temp_k, double pressure_pa);
+
+}  // namespace latentlift::thermo

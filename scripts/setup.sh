@@ -1,0 +1,30 @@
+#!/usr/bin/env bash
+# Install every dependency from Debian packages (when missing) and build latentlift.
+# Usage: scripts/setup.sh [build-dir]     (default: build)
+set -euo pipefail
+here=$(cd "$(dirname "$0")/.." && pwd)
+build=${1:-"$here/build"}
+
+packages=(build-essential cmake pkg-config
+  libnetcdf-dev libnetcdf-c++4-dev netcdf-bin
+  libproj-dev proj-bin proj-data
+  libudunits2-dev libtomlplusplus-dev libcli11-dev libpng-dev
+  libgtest-dev libgmock-dev libbenchmark-dev
+  libopenmpi-dev openmpi-bin
+  ccache gdal-bin python3 python3-numpy python3-scipy python3-netcdf4)
+
+missing=()
+for p in "${packages[@]}"; do
+  dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")
+done
+if [ ${#missing[@]} -gt 0 ]; then
+  echo "setup: installing ${missing[*]}"
+  sudo_cmd=""
+  [ "$(id -u)" -ne 0 ] && sudo_cmd="sudo"
+  $sudo_cmd apt-get update -qq
+  DEBIAN_FRONTEND=noninteractive $sudo_cmd apt-get install -y -qq "${missing[@]}" >/dev/null
+fi
+
+cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release >/dev/null
+cmake --build "$build" -j "$(nproc)"
+echo "setup: built $build/latentlift"
