@@ -1,0 +1,55 @@
+// A small communicator layer: a serial backend and, when built with MPI
+// (LATENTLIFT_HAVE_MPI), an MPI backend used when the process was started by
+// mpirun/srun. mpi.h stays inside src/stats/comm.cpp.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <string>
+#include <vector>
+
+namespace latentlift::comm {
+
+/// The processes of one job. rank() in [0, size()); the serial backend has size() == 1.
+class Communicator {
+ public:
+  virtual ~Communicator() = default;
+  virtual int rank() const = 0;
+  virtual int size() const = 0;
+  /// "serial" or "mpi".
+  virtual const char* backend() const = 0;
+  /// Maximum over all ranks (collective).
+  virtual int allreduce_max(int value) = 0;
+  /// Sum over all ranks (collective).
+  virtual long long allreduce_sum(long long value) = 0;
+  /// Point-to-point transfer of a byte buffer of any size (chunked under MPI).
+  virtual void send_bytes(int dest, const std::vector<char>& bytes) = 0;
+  virtual std::vector<char> recv_bytes(int source) = 0;
+  /// Broadcast a byte buffer from rank root (collective).
+  virtual void broadcast_bytes(std::vector<char>& bytes, int root) = 0;
+  /// Wait for all ranks (collective).
+  virtual void barrier() = 0;
+  /// Stop every rank of the job with this exit code (MPI_Abort); never returns.
+  [[noreturn]] virtual void abort(int exit_code) = 0;
+};
+
+/// The world communicator: MPI when built with MPI and launched by mpirun/srun (environment
+/// OMPI_COMM_WORLD_SIZE, PMI_SIZE or PMIX_RANK) unless LATENTLIFT_MPI=0; otherwise serial.
+/// MPI is initialised on first use and finalised at program exit.
+Communicator& world();
+/// True when the MPI backend is compiled in.
+bool mpi_available();
+
+/// The half-open index range [begin, end) of items of a contiguous block partition of
+/// `total` items over `size` ranks (sizes differ by at most one; lower ranks get more).
+struct Range {
+  std::size_t begin, end;
+};
+Range partition(std::size_t total, int rank, int size);
+
+/// Per-rank output name for `analyze` under mpirun: "{time}" in the pattern is replaced by the
+/// zero-padded time index (4 digits), else "_t%04d" is inserted before the extension
+/// (OUT.nc -> OUT_t0003.nc).
+std::string rank_output_name(const std::string& pattern, std::size_t time_index);
+
+}  // namespace latentlift::comm

@@ -1,0 +1,229 @@
+// Mergeable per-grid-point accumulators.
+// Mean and variance: Welford (1962, Technometrics 4, 419-420) for one value at a
+// time; Chan, Golub & LeVeque (1979, "Updating formulae and a pairwise algorithm
+// for computing sample variances", Stanford STAN-CS-79-773) to merge two partial
+// results: delta = mean_b - mean_a, n = n_a + n_b,
+// mean = mean_a + delta n_b / n, M2 = M2_a + M2_b + delta^2 n_a n_b / n.
+#include <algorithm>
+#include <cmath>
+#include <cstring>
+#include <limits>
+
+#include "latentlift/climatology.hpp"
+#include "latentlift/errors.hpp"
+
+namespace latentlift::climatology {
+
+namespace {
+
+// Edges from (step, upper) runs starting at 0: e.g. {{2, 20}, {5, 100}} -> 0 2 .. 20 25 .. 100.
+std::vector<double> runs(std::initializer_list<std::pair<double, double>> steps) {
+  std::vector<double> edges{0.0};
+  for (const auto& [step, upper] : steps) {
+    const double start = edges.back();
+    const int n = static_cast<int>(std::lround((upper - start) / step));
+    for (int i = 1; i <= n; ++i) edges.push_back(start + i * step);
+  }
+  return edges;
+}
+
+}  // namespace
+
+const std::array<FieldSpec, kFieldCount>& field_specs() {
+  // Bins are finer where values are common; the resolution of the percentiles is the bin width.
+  static const std::array<FieldSpec, kFieldCount> specs = {{
+      {"latent_layer_depth", "hPa", "total depth of latently unstable layers",
+       runs({{2, 20}, {5, 100}, {10, 300}})},
+      {"mu_cape", "J kg-1", "CAPE of the most-unstable parcel",
+       runs({{10, 100}, {50, 1000}, {100, 4000}, {250, 8000}})},
+      {"mu_cin", "J kg-1", "CIN of the most-unstable parcel",
+       runs({{2, 20}, {5, 100}, {10, 300}, {50, 1000}})},
+      {"mu_lift_to_lfc", "hPa", "lift needed to bring the most-unstable parcel to its LFC",
+       runs({{2, 20}, {5, 100}, {10, 300}, {25, 800}})},
+      {"easiest_lift", "hPa", "least lift needed over the latently unstable parcels",
+       runs({{2, 20}, {5, 100}, {10, 300}, {25, 800}})},
+  }};
+  return specs;
+}
+
+int bin_of(const std::vector<double>& edges, double v) {
+  if (v <= edges.front()) return 0;
+  if (v > edges.back()) return static_cast<int>(edges.size());
+  // first edge >= v: v lies in (e_{k-1}, e_k] -> bin k
+  return static_cast<int>(std::lower_bound(edges.begin(), edges.end(), v) - edges.begin());
+}
+
+double histogram_percentile(const std::uint32_t* counts, const std::vector<double>& edges,
+                            double max_value, double q) {
+  const int bins = static_cast<int>(edges.size()) + 1;
+  std::uint64_t total = 0;
+  for (int k = 0; k < bins; ++k) total += counts[k];
+  if (total == 0) return std::numeric_limits<double>::quiet_NaN();
+  const double rank = q / 100.0 * static_cast<double>(total);
+  std::uint64_t below = 0;
+  for (int k = 0; k < bins; ++k) {
+    const std::uint64_t cum = below + counts[k];
+    if (counts[k] > 0 && static_cast<double>(cum) >= rank) {
+      if (k == 0) return std::min(edges.front(), max_value);
+      const double lo = edges[k - 1];
+      const double hi = k < bins - 1 ? edges[k] : max_value;
+      const double p = lo + (rank - static_cast<double>(below)) / counts[k] * (hi - lo);
+      return std::min(p, max_value);
+    }
+    below = cum;
+  }
+  return max_value;
+}
+
+double standard_deviation(std::uint32_t n, double m2) {
+  if (n < 2) return std::numeric_limits<double>::quiet_NaN();
+  return std::sqrt(std::max(m2, 0.0) / (n - 1));
+}
+
+Accumulator::Accumulator(GroupBy group_by, std::size_t n_points, int n_levels)
+    : group_by_(group_by), groups_(group_count(group_by)), points_(n_points), levels_(n_levels) {
+  const std::size_t cells = static_cast<std::size_t>(groups_) * points_;
+  count.assign(cells, 0);
+  latent_count.assign(cells, 0);
+  real_latent_count.assign(cells, 0);
+  for (int f = 0; f < kFieldCount; ++f) {
+    n[f].assign(cells, 0);
+    mean[f].assign(cells, 0.0);
+    m2[f].assign(cells, 0.0);
+    max[f].assign(cells, -std::numeric_limits<double>::infinity());
+    hist[f].assign(cells * field_specs()[f].bin_count(), 0);
+  }
+  stability_count.assign(cells * static_cast<std::size_t>(levels_) * kStabilityClassCount, 0);
+}
+
+void Accumulator::add(const TimeStepFields& step) {
+  const int g = group_index(group_by_, step.valid_time_s);
+  const auto& specs = field_specs();
+  const long np = static_cast<long>(points_);
+  if (levels_ > 0 && !step.stability_class)
+    throw Error("climatology: a time step without stability classes was added to an accumulator with levels");
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(static)
+#endif
+  for (long p = 0; p < np; ++p) {
+    const std::size_t i = at(g, static_cast<std::size_t>(p));
+    const std::int8_t cls = step.latent_class ? step.latent_class[p] : std::int8_t(-1);
+    if (cls >= 0) {
+      ++count[i];
+      if (cls >= 1) ++latent_count[i];
+      if (cls == 2) ++real_latent_count[i];
+    }
+    for (int f = 0; f < kFieldCount; ++f) {
+      if (!step.field[f]) continue;
+      const double v = step.field[f][p];
+      if (std::isnan(v)) continue;
+      const std::uint32_t nn = ++n[f][i];
+      const double delta = v - mean[f][i];
+      mean[f][i] += delta / nn;
+      m2[f][i] += delta * (v - mean[f][i]);
+      if (v > max[f][i]) max[f][i] = v;
+      ++hist[f][i * specs[f].bin_count() + bin_of(specs[f].edges, v)];
+    }
+    for (int level = 0; level < levels_; ++level) {
+      const std::int8_t s = step.stability_class[static_cast<std::size_t>(level) * points_ + p];
+      if (s >= 0 && s < kStabilityClassCount) ++stability_count[stability_at(g, level, s, p)];
+    }
+  }
+}
+
+void Accumulator::merge(const Accumulator& other) {
+  if (other.group_by_ != group_by_ || other.points_ != points_ || other.levels_ != levels_)
+    throw Error("climatology: cannot merge accumulators of different shape (grouping, grid points or levels)");
+  const std::size_t cells = count.size();
+  const long nc = static_cast<long>(cells);
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(static)
+#endif
+  for (long c = 0; c < nc; ++c) {
+    const std::size_t i = static_cast<std::size_t>(c);
+    count[i] += other.count[i];
+    latent_count[i] += other.latent_count[i];
+    real_latent_count[i] += other.real_latent_count[i];
+    for (int f = 0; f < kFieldCount; ++f) {
+      const std::uint32_t nb = other.n[f][i];
+      if (nb == 0) continue;
+      const std::uint32_t na = n[f][i];
+      if (na == 0) {
+        mean[f][i] = other.mean[f][i];
+        m2[f][i] = other.m2[f][i];
+      } else {
+        const double nt = static_cast<double>(na) + nb;
+        const double delta = other.mean[f][i] - mean[f][i];
+        mean[f][i] += delta * (nb / nt);
+        m2[f][i] += other.m2[f][i] + delta * delta * (static_cast<double>(na) * nb / nt);
+      }
+      n[f][i] = na + nb;
+      max[f][i] = std::max(max[f][i], other.max[f][i]);
+    }
+  }
+  for (int f = 0; f < kFieldCount; ++f)
+    for (std::size_t k = 0; k < hist[f].size(); ++k) hist[f][k] += other.hist[f][k];
+  for (std::size_t k = 0; k < stability_count.size(); ++k) stability_count[k] += other.stability_count[k];
+}
+
+namespace {
+
+template <class T>
+void put(std::vector<char>& out, const std::vector<T>& v) {
+  const char* p = reinterpret_cast<const char*>(v.data());
+  out.insert(out.end(), p, p + v.size() * sizeof(T));
+}
+
+template <class T>
+void get(const std::vector<char>& in, std::size_t& pos, std::vector<T>& v) {
+  const std::size_t bytes = v.size() * sizeof(T);
+  if (pos + bytes > in.size()) throw Error("climatology: truncated accumulator image");
+  std::memcpy(v.data(), in.data() + pos, bytes);
+  pos += bytes;
+}
+
+}  // namespace
+
+std::vector<char> Accumulator::serialize() const {
+  std::vector<char> out;
+  std::vector<std::int64_t> header{0x4c4c4331 /* "LLC1" */, static_cast<std::int64_t>(group_by_),
+                                   static_cast<std::int64_t>(points_), levels_};
+  put(out, header);
+  put(out, count);
+  put(out, latent_count);
+  put(out, real_latent_count);
+  for (int f = 0; f < kFieldCount; ++f) {
+    put(out, n[f]);
+    put(out, mean[f]);
+    put(out, m2[f]);
+    put(out, max[f]);
+    put(out, hist[f]);
+  }
+  put(out, stability_count);
+  return out;
+}
+
+Accumulator Accumulator::deserialize(const std::vector<char>& bytes) {
+  std::vector<std::int64_t> header(4);
+  std::size_t pos = 0;
+  get(bytes, pos, header);
+  if (header[0] != 0x4c4c4331 || header[1] < 0 || header[1] > 3 || header[2] < 0 || header[3] < 0)
+    throw Error("climatology: malformed accumulator image");
+  Accumulator acc(static_cast<GroupBy>(header[1]), static_cast<std::size_t>(header[2]),
+                  static_cast<int>(header[3]));
+  get(bytes, pos, acc.count);
+  get(bytes, pos, acc.latent_count);
+  get(bytes, pos, acc.real_latent_count);
+  for (int f = 0; f < kFieldCount; ++f) {
+    get(bytes, pos, acc.n[f]);
+    get(bytes, pos, acc.mean[f]);
+    get(bytes, pos, acc.m2[f]);
+    get(bytes, pos, acc.max[f]);
+    get(bytes, pos, acc.hist[f]);
+  }
+  get(bytes, pos, acc.stability_count);
+  if (pos != bytes.size()) throw Error("climatology: accumulator image has trailing bytes");
+  return acc;
+}
+
+}  // namespace latentlift::climatology
