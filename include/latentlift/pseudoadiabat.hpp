@@ -18,8 +18,8 @@ double reference_follow_k(double temp_k, double from_pa, double to_pa);
 double reference_theta_w_k(double temp_k, double pressure_pa);
 
 /// Fast path: tables of the reference pseudo-adiabats in (theta_w, ln p), built once,
-/// with cubic (4x4 Lagrange) interpolation, and their inverses. Valid from 1100 to 50 hPa
-/// and theta_w from -100 to +60 degC; within 0.02 K of the reference for theta_w from
+/// with cubic (4x4 Lagrange) interpolation, and their inverses. Valid from 1150 to 50 hPa
+/// and theta_w from -100 to +70 degC; within 0.02 K of the reference for theta_w from
 /// -40 to +40 degC and 1050 to 100 hPa (tests/thermo sweep). Immutable and thread-safe.
 class Table {
  public:
@@ -49,8 +49,8 @@ class Table {
   Curve curve(double theta_w_k) const;
 
   static constexpr double kThetaMinK = 173.15;   // -100 degC
-  static constexpr double kThetaMaxK = 333.15;   // +60 degC
-  static constexpr double kPressureMaxPa = 110000.0;
+  static constexpr double kThetaMaxK = 343.15;   // +70 degC
+  static constexpr double kPressureMaxPa = 115000.0;
   static constexpr double kPressureMinPa = 5000.0;
 
   Table();  // builds from the reference integrator; use instance()

@@ -1,0 +1,688 @@
+// The column analysis: Normand's latent instability for one column.
+//
+// How one parcel is followed (METHODS of the README):
+//  1. its source level gives T, mixing ratio r and dew point; it rises dry-
+//     adiabatically (Poisson, Bolton kappa) to its LCL (Bolton 1980, eq. 15);
+//  2. from the LCL on it rides the pseudo-adiabat labelled by its wet-bulb
+//     potential temperature theta_w (table look-ups, pseudoadiabat::Table);
+//  3. at any pressure above its LCL the parcel is buoyant exactly when its
+//     theta_w exceeds the "saturation theta_w" of the environment there: the
+//     label of the pseudo-adiabat whose (virtual) temperature equals the
+//     environment's. That per-level value is computed once per column, and
+//     between two levels it is represented by a parabola in ln p through the
+//     two levels and the layer midpoint (the pseudo-adiabat bows against the
+//     environment's straight chord). Flags, LFC and EL of every parcel are then
+//     comparisons and running minima, O(levels) per column;
+//  4. only the reported parcels (most unstable, and those whose excess is needed
+//     for a layer boundary or a level field) get an explicit ascent: buoyancy
+//     (K) evaluated along the parcel's pseudo-adiabat with one table look-up per
+//     point, maximum excess from a parabola per layer, CAPE and CIN by the
+//     trapezoidal rule on sub-steps, positive or negative part only.
+#include "latentlift/column.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numeric>
+#include <stdexcept>
+
+#include "latentlift/pseudoadiabat.hpp"
+#include "latentlift/thermo.hpp"
+
+namespace latentlift {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+constexpr double kMinValidTempK = 150.0;  // METHODS "Quality control"
+constexpr double kMaxValidTempK = 350.0;
+constexpr double kMinRelativeHumidity = 1e-4;  // floor for zero/negative humidity (counted as clipped)
+constexpr double kNearThresholdK = 0.05;  // theta_w margin inside which a flag is decided by explicit ascent
+constexpr int kMinUsableLevels = 3;       // METHODS: fewer usable levels -> missing values
+constexpr double kNeutralBandKPerM = 0.1e-3;  // 0.1 K per km of layer thickness
+
+using pseudoadiabat::Table;
+
+// f(s) = a + b s + c s^2 on s in [0, 1], through f(0), f(1/2), f(1).
+struct Quadratic {
+  double a = 0, b = 0, c = 0;
+  static Quadratic through(double f0, double fm, double f1) {
+    Quadratic q;
+    q.a = f0;
+    q.c = 2.0 * (f0 - 2.0 * fm + f1);
+    q.b = f1 - f0 - q.c;
+    return q;
+  }
+  double at(double s) const { return a + s * (b + s * c); }
+  // Minimum over [s0, s1].
+  double min_on(double s0, double s1) const {
+    double m = std::min(at(s0), at(s1));
+    if (c > 0) {
+      const double v = -b / (2 * c);
+      if (v > s0 && v < s1) m = std::min(m, at(v));
+    }
+    return m;
+  }
+  // Maximum over [s0, s1].
+  double max_on(double s0, double s1) const {
+    double m = std::max(at(s0), at(s1));
+    if (c < 0) {
+      const double v = -b / (2 * c);
+      if (v > s0 && v < s1) m = std::max(m, at(v));
+    }
+    return m;
+  }
+  // Roots of f(s) = y in [s0, s1], ascending; returns their count (0..2).
+  int roots(double y, double s0, double s1, double out[2]) const {
+    int n = 0;
+    double r[2];
+    const double cc = a - y;
+    if (std::fabs(c) < 1e-12) {
+      if (b != 0) r[n++] = -cc / b;
+    } else {
+      const double disc = b * b - 4 * c * cc;
+      if (disc >= 0) {
+        const double sq = std::sqrt(disc);
+        const double q = -0.5 * (b + (b >= 0 ? sq : -sq));
+        r[n++] = q / c;
+        if (q != 0) r[n++] = cc / q;
+      }
+    }
+    int m = 0;
+    for (int i = 0; i < n; ++i)
+      if (r[i] >= s0 && r[i] <= s1) out[m++] = r[i];
+    if (m == 2 && out[0] > out[1]) std::swap(out[0], out[1]);
+    return m;
+  }
+};
+
+// One usable level of the column, ordered from the bottom (highest pressure) up.
+struct Level {
+  int index;            // input level index; -1 for the interpolated analysis top
+  double p, lnp, t, r, tv, z;
+  double e;             // vapour pressure, Pa
+  double sat;           // saturation theta_w in the buoyancy mode (parcel buoyant iff theta_w > sat)
+  double sat_eps;       // the same for an excess of min_excess_k
+  double theta_w_star;  // from the temperature (tangent adiabat, level fields)
+};
+
+// The environment between levels k and k+1 at fraction s of the layer in ln p.
+struct Segment {
+  Quadratic sat, sat_eps;
+  double min_sat, min_sat_eps;  // over the whole layer
+};
+
+struct Parcel {
+  int level = -1;         // position in levels_
+  double theta_w = kNaN;
+  double lcl_t = kNaN, lcl_p = kNaN, lcl_lnp = kNaN;
+  int lcl_seg = -1;       // layer holding the LCL (-1: LCL above the analysis top)
+  double lcl_s = 0;       // fraction of that layer
+  bool flagged = false;
+  double excess = kNaN;   // maximum excess, K (NaN until computed / when LCL above top)
+  bool excess_done = false;
+  double lfc_lnp = kNaN;
+};
+
+}  // namespace
+
+void QcCounts::add(const QcCounts& o) {
+  columns_analysed += o.columns_analysed;
+  columns_skipped += o.columns_skipped;
+  humidity_clipped += o.humidity_clipped;
+  dew_point_corrected += o.dew_point_corrected;
+  temperature_rejected += o.temperature_rejected;
+}
+
+void ColumnResult::set_missing(int n_levels, bool with_levels) {
+  latent_layer_depth_pa = latent_layer_depth_z_m = latent_layer_bottom_pa = latent_layer_top_pa = kNaN;
+  tangent_theta_w_k = tangent_pressure_pa = mu_pressure_pa = mu_theta_w_k = kNaN;
+  mu_cape_j_kg = mu_cin_j_kg = mu_lfc_pressure_pa = mu_el_pressure_pa = kNaN;
+  mu_lift_to_lfc_pa = mu_lift_to_lfc_z_m = easiest_lift_pa = easiest_lift_pressure_pa = kNaN;
+  latent_class = kByteMissing;
+  if (with_levels) {
+    const auto n = static_cast<size_t>(std::max(n_levels, 0));
+    for (auto* v : {&levels.wet_bulb_temperature_k, &levels.wet_bulb_potential_temperature_k,
+                    &levels.saturation_theta_w_k, &levels.max_parcel_excess_k, &levels.dew_point_k})
+      v->assign(n, kNaN);
+    for (auto* v : {&levels.latent_flag, &levels.stability_class, &levels.potential_instability})
+      v->assign(n, kByteMissing);
+  }
+}
+
+struct ColumnAnalyzer::Impl {
+  AnalysisSettings settings;
+  const Table& table = Table::instance();
+  bool virtual_mode;
+
+  std::vector<Level> levels;       // usable levels, bottom up; [0, n_an) form the analysis column
+  int n_an = 0;                    // analysis levels (p >= top, plus an interpolated top level)
+  std::vector<Segment> segs;       // n_an - 1 layers
+  std::vector<double> suffix_eps;  // min of sat_eps over layers k.. top
+  std::vector<Parcel> parcels;     // one per level (filled lazily: source layer, or all with level fields)
+  std::vector<int> order;
+  std::vector<int> position_of_input;  // input index -> position in levels (-1 unusable)
+  int n_source = 0;
+  int n_input = 0;
+
+  explicit Impl(const AnalysisSettings& s) : settings(s), virtual_mode(s.buoyancy == BuoyancyMode::virtual_temperature) {
+    if (!(s.top_pressure_pa >= Table::kPressureMinPa && s.top_pressure_pa < Table::kPressureMaxPa))
+      throw std::invalid_argument("top pressure must lie between 50 and 1150 hPa");
+    if (!(s.source_layer_pa >= 0)) throw std::invalid_argument("source layer depth must be >= 0");
+    if (!(s.min_excess_k >= 0)) throw std::invalid_argument("min_excess_k must be >= 0");
+    if (s.cape_substeps < 1) throw std::invalid_argument("cape_substeps must be >= 1");
+  }
+
+  // ------------------------------------------------------------ environment
+  // Environment (virtual) temperature used for buoyancy, at fraction s of layer k.
+  double env_buoyancy_temp(int k, double s) const {
+    const Level& a = levels[k];
+    const Level& b = levels[k + 1];
+    const double t = a.t + s * (b.t - a.t);
+    if (!virtual_mode) return t;
+    const double r = a.r + s * (b.r - a.r);
+    return thermo::virtual_temperature_k(t, r);
+  }
+  double lnp_at(int k, double s) const { return levels[k].lnp + s * (levels[k + 1].lnp - levels[k].lnp); }
+  double height_at_lnp(double lnp) const {
+    // Geopotential height linear in ln p between the analysis levels (METHODS).
+    for (int k = 0; k + 1 < n_an; ++k) {
+      const Level& a = levels[k];
+      const Level& b = levels[k + 1];
+      if (lnp <= a.lnp && lnp >= b.lnp) {
+        const double s = (a.lnp - lnp) / (a.lnp - b.lnp);
+        return a.z + s * (b.z - a.z);
+      }
+    }
+    if (n_an > 0 && lnp == levels[0].lnp) return levels[0].z;
+    return kNaN;
+  }
+  // Saturation theta_w of environment temperature t (and mixing ratio r) at lnp, for buoyancy;
+  // *slope gets d(sat)/d(temperature) for the threshold of min_excess_k.
+  double saturation_theta_w(double t, double r, double lnp, double* slope) const {
+    if (virtual_mode) return table.theta_w_from_virtual_k(thermo::virtual_temperature_k(t, r), lnp, slope);
+    return table.theta_w_k(t, lnp, slope);
+  }
+
+  // ------------------------------------------------------------ parcels
+  double parcel_buoyancy_temp(const Parcel& pc, const Table::Curve& curve, double lnp) const {
+    if (lnp > pc.lcl_lnp) {  // below the LCL: dry adiabat, source mixing ratio
+      const Level& src = levels[pc.level];
+      const double t = src.t * std::exp(thermo::poisson_kappa(src.r) * (lnp - src.lnp));
+      return virtual_mode ? thermo::virtual_temperature_k(t, src.r) : t;
+    }
+    return virtual_mode ? curve.virtual_temperature_k(lnp) : curve.temperature_k(lnp);
+  }
+
+  void init_parcel(int k) {
+    Parcel& pc = parcels[k];
+    pc = Parcel{};
+    pc.level = k;
+    const Level& lv = levels[k];
+    const double td = thermo::dew_point_k(lv.e);
+    pc.lcl_t = std::min(thermo::lcl_temperature_k(lv.t, td), lv.t);
+    pc.lcl_lnp = std::min(lv.lnp + std::log(pc.lcl_t / lv.t) / thermo::poisson_kappa(lv.r), lv.lnp);
+    pc.lcl_p = std::exp(pc.lcl_lnp);
+    if (pc.lcl_p >= Table::kPressureMinPa)
+      pc.theta_w = table.theta_w_k(pc.lcl_t, pc.lcl_lnp);
+    else
+      pc.theta_w = pseudoadiabat::reference_theta_w_k(pc.lcl_t, pc.lcl_p);
+    // The layer of the analysis column that holds the LCL.
+    pc.lcl_seg = -1;
+    if (k < n_an && pc.lcl_lnp >= levels[n_an - 1].lnp) {
+      int j = k;
+      while (j + 1 < n_an - 1 && levels[j + 1].lnp > pc.lcl_lnp) ++j;
+      if (j + 1 < n_an) {
+        pc.lcl_seg = j;
+        pc.lcl_s = std::clamp((levels[j].lnp - pc.lcl_lnp) / (levels[j].lnp - levels[j + 1].lnp), 0.0, 1.0);
+      }
+    }
+    if (pc.lcl_seg < 0) {
+      pc.excess_done = true;  // LCL above the analysis top: excess missing, not flagged
+      return;
+    }
+    // Fast test against the running minimum of the threshold adiabats; explicit ascent near the threshold.
+    const int j = pc.lcl_seg;
+    double threshold = segs[j].sat_eps.min_on(pc.lcl_s, 1.0);
+    if (j + 1 < static_cast<int>(suffix_eps.size())) threshold = std::min(threshold, suffix_eps[j + 1]);
+    if (std::fabs(pc.theta_w - threshold) < kNearThresholdK) {
+      compute_excess(pc);
+      pc.flagged = pc.excess > settings.min_excess_k;
+    } else {
+      pc.flagged = pc.theta_w > threshold;
+    }
+    if (pc.flagged) pc.lfc_lnp = find_lfc(pc);
+  }
+
+  // Maximum parcel-minus-environment (virtual) temperature at or above the LCL, below the top.
+  void compute_excess(Parcel& pc) const {
+    if (pc.excess_done) return;
+    pc.excess_done = true;
+    const auto curve = table.curve(pc.theta_w);
+    auto excess_at = [&](int k, double s) {
+      const double lnp = lnp_at(k, s);
+      return (virtual_mode ? curve.virtual_temperature_k(lnp) : curve.temperature_k(lnp)) - env_buoyancy_temp(k, s);
+    };
+    double best = -std::numeric_limits<double>::infinity();
+    double s0 = pc.lcl_s;
+    double f0 = excess_at(pc.lcl_seg, s0);
+    best = f0;
+    for (int k = pc.lcl_seg; k + 1 < n_an; ++k) {
+      if (k > pc.lcl_seg) s0 = 0.0;
+      const double sm = 0.5 * (s0 + 1.0);
+      const double fm = excess_at(k, sm);
+      const double f1 = excess_at(k, 1.0);
+      // Parabola through (s0, f0), (sm, fm), (1, f1), mapped to [0, 1] of the sub-interval.
+      const Quadratic q = Quadratic::through(f0, fm, f1);
+      best = std::max(best, q.max_on(0.0, 1.0));
+      f0 = f1;
+    }
+    pc.excess = best;
+  }
+
+  // Lowest point at or above the LCL where the parcel is buoyant (theta_w > sat).
+  double find_lfc(const Parcel& pc) const {
+    double s_start = pc.lcl_s;
+    double best_gap = -std::numeric_limits<double>::infinity(), best_lnp = kNaN;
+    for (int k = pc.lcl_seg; k + 1 < n_an; ++k, s_start = 0.0) {
+      const Quadratic& q = segs[k].sat;
+      const double f0 = q.at(s_start);
+      if (f0 < pc.theta_w) return lnp_at(k, s_start);
+      if (segs[k].min_sat < pc.theta_w) {
+        double r[2];
+        const int n = q.roots(pc.theta_w, s_start, 1.0, r);
+        if (n > 0) return lnp_at(k, r[0]);
+      }
+      const double gap = pc.theta_w - q.min_on(s_start, 1.0);
+      if (gap > best_gap) {
+        best_gap = gap;
+        best_lnp = lnp_at(k, 1.0);
+      }
+    }
+    // Flagged by the explicit excess but the parabola of saturation theta_w stays a hair above
+    // the parcel: the closest approach is the LFC.
+    return best_lnp;
+  }
+
+  // Highest downward crossing of buoyancy below the top (the top if still buoyant there).
+  double find_el(const Parcel& pc) const {
+    const int top = n_an - 1;
+    if (levels[top].sat < pc.theta_w) return levels[top].lnp;
+    for (int k = top - 1; k >= pc.lcl_seg; --k) {
+      const double s_lo = (k == pc.lcl_seg) ? pc.lcl_s : 0.0;
+      const Quadratic& q = segs[k].sat;
+      if (q.min_on(s_lo, 1.0) < pc.theta_w) {
+        double r[2];
+        const int n = q.roots(pc.theta_w, s_lo, 1.0, r);
+        if (n > 0) return lnp_at(k, r[n - 1]);
+        return lnp_at(k, s_lo);
+      }
+    }
+    return pc.lfc_lnp;
+  }
+
+  // Rd * integral of buoyancy (positive or negative part) d(ln p) from lnp_from up to lnp_to.
+  double integrate_buoyancy(const Parcel& pc, double lnp_from, double lnp_to, bool positive_part) const {
+    const auto curve = table.curve(pc.theta_w);
+    const int substeps = settings.cape_substeps;
+    double total = 0.0;
+    bool have_prev = false;
+    double prev_lnp = 0, prev_b = 0;
+    auto add_point = [&](double lnp, int k) {
+      const double s = (levels[k].lnp - lnp) / (levels[k].lnp - levels[k + 1].lnp);
+      const double b = parcel_buoyancy_temp(pc, curve, lnp) - env_buoyancy_temp(k, std::clamp(s, 0.0, 1.0));
+      if (have_prev) {
+        const double d = prev_lnp - lnp;  // > 0 going up
+        const double b0 = positive_part ? prev_b : -prev_b;
+        const double b1 = positive_part ? b : -b;
+        if (b0 >= 0 && b1 >= 0)
+          total += 0.5 * (b0 + b1) * d;
+        else if (b0 > 0 || b1 > 0) {
+          const double pos = std::max(b0, b1);
+          total += 0.5 * pos * pos / (std::fabs(b0) + std::fabs(b1)) * d;
+        }
+      }
+      have_prev = true;
+      prev_lnp = lnp;
+      prev_b = b;
+    };
+    for (int k = 0; k + 1 < n_an; ++k) {
+      const double hi = levels[k].lnp, lo = levels[k + 1].lnp;  // hi > lo
+      const double a = std::min(hi, lnp_from), b = std::max(lo, lnp_to);
+      if (a <= b) continue;
+      // Sub-steps of this layer inside [b, a], with the LCL as an extra node.
+      const int n = std::max(1, static_cast<int>(std::ceil(substeps * (a - b) / (hi - lo) - 1e-9)));
+      if (!have_prev) add_point(a, k);
+      for (int i = 1; i <= n; ++i) {
+        const double x = a - (a - b) * i / n;
+        const double x_prev = a - (a - b) * (i - 1) / n;
+        if (pc.lcl_lnp < x_prev && pc.lcl_lnp > x) add_point(pc.lcl_lnp, k);
+        add_point(x, k);
+      }
+    }
+    return thermo::kRd * total;
+  }
+
+  ParcelAscent full_ascent(Parcel& pc) {
+    ParcelAscent out{};
+    out.source_pressure_pa = levels[pc.level].p;
+    out.theta_w_k = pc.theta_w;
+    out.lcl_pressure_pa = pc.lcl_p;
+    out.lcl_temp_k = pc.lcl_t;
+    compute_excess(pc);
+    out.max_excess_k = pc.excess;
+    out.flagged = pc.flagged;
+    out.lfc_pressure_pa = out.el_pressure_pa = out.cin_j_kg = kNaN;
+    out.cape_j_kg = 0.0;
+    if (!pc.flagged) return out;
+    const double el_lnp = find_el(pc);
+    out.lfc_pressure_pa = std::exp(pc.lfc_lnp);
+    out.el_pressure_pa = std::exp(el_lnp);
+    out.cape_j_kg = integrate_buoyancy(pc, pc.lfc_lnp, el_lnp, true);
+    out.cin_j_kg = integrate_buoyancy(pc, levels[pc.level].lnp, pc.lfc_lnp, false);
+    return out;
+  }
+
+  // ------------------------------------------------------------ the column
+  bool load(const ColumnInput& in, QcCounts& qc) {
+    n_input = in.n_levels;
+    levels.clear();
+    position_of_input.assign(static_cast<size_t>(std::max(0, n_input)), -1);
+    order.resize(static_cast<size_t>(std::max(0, n_input)));
+    std::iota(order.begin(), order.end(), 0);
+    const double* p = in.pressure_pa;
+    if (n_input > 1) {
+      bool down = true, up = true;
+      for (int i = 1; i < n_input; ++i) {
+        if (!(p[i] < p[i - 1])) down = false;
+        if (!(p[i] > p[i - 1])) up = false;
+      }
+      if (up)
+        std::reverse(order.begin(), order.end());
+      else if (!down)
+        std::stable_sort(order.begin(), order.end(), [&](int a, int b) {
+          const double pa = std::isnan(p[a]) ? -1 : p[a], pb = std::isnan(p[b]) ? -1 : p[b];
+          return pa > pb;
+        });
+    }
+    const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
+    for (int i : order) {
+      const double pi = p[i], ti = in.temp_k[i], hi = in.humidity[i];
+      if (!(pi > 0) || std::isnan(ti) || std::isnan(hi)) continue;
+      if (has_surface && pi > in.surface_pressure_pa) continue;  // below ground
+      if (pi < Table::kPressureMinPa || pi > Table::kPressureMaxPa) continue;
+      if (ti < kMinValidTempK || ti > kMaxValidTempK) {
+        ++qc.temperature_rejected;
+        continue;
+      }
+      if (!levels.empty() && pi >= levels.back().p) continue;  // duplicate pressure
+      const double es = thermo::saturation_vapour_pressure_pa(ti);
+      double e = 0.0;
+      switch (in.humidity_kind) {
+        case HumidityKind::specific_humidity:
+          e = hi > 0 ? thermo::vapour_pressure_from_specific_humidity_pa(hi, pi) : 0.0;
+          break;
+        case HumidityKind::mixing_ratio:
+          e = hi > 0 ? thermo::vapour_pressure_from_mixing_ratio_pa(hi, pi) : 0.0;
+          break;
+        case HumidityKind::relative_humidity:
+          if (hi > 1.0) ++qc.humidity_clipped;
+          e = std::min(hi, 1.0) * es;
+          if (hi > 1.0) e = es;
+          break;
+        case HumidityKind::dew_point:
+          if (hi > ti) ++qc.dew_point_corrected;
+          e = thermo::saturation_vapour_pressure_pa(std::min(hi, ti));
+          break;
+      }
+      if (in.humidity_kind == HumidityKind::specific_humidity || in.humidity_kind == HumidityKind::mixing_ratio) {
+        if (e > es) {
+          ++qc.humidity_clipped;
+          e = es;
+        }
+      }
+      if (e < kMinRelativeHumidity * es) {  // zero or negative humidity
+        ++qc.humidity_clipped;
+        e = kMinRelativeHumidity * es;
+      }
+      Level lv;
+      lv.index = i;
+      lv.p = pi;
+      lv.lnp = std::log(pi);
+      lv.t = ti;
+      lv.e = e;
+      lv.r = thermo::mixing_ratio(e, pi);
+      lv.tv = thermo::virtual_temperature_k(ti, lv.r);
+      lv.z = in.height_m ? in.height_m[i] : kNaN;
+      levels.push_back(lv);
+    }
+    return static_cast<int>(levels.size()) >= kMinUsableLevels;
+  }
+
+  void build_analysis_column() {
+    const double top = settings.top_pressure_pa;
+    n_an = 0;
+    while (n_an < static_cast<int>(levels.size()) && levels[n_an].p >= top) ++n_an;
+    if (n_an > 0 && n_an < static_cast<int>(levels.size()) && levels[n_an - 1].p > top) {
+      // Interpolate the analysis top between the levels around it (linear in ln p).
+      const Level& a = levels[n_an - 1];
+      const Level& b = levels[n_an];
+      Level lv;
+      lv.index = -1;
+      lv.p = top;
+      lv.lnp = std::log(top);
+      const double s = (a.lnp - lv.lnp) / (a.lnp - b.lnp);
+      lv.t = a.t + s * (b.t - a.t);
+      lv.r = a.r + s * (b.r - a.r);
+      lv.e = thermo::vapour_pressure_from_mixing_ratio_pa(lv.r, top);
+      lv.tv = thermo::virtual_temperature_k(lv.t, lv.r);
+      lv.z = a.z + s * (b.z - a.z);
+      levels.insert(levels.begin() + n_an, lv);
+      ++n_an;
+    }
+    for (size_t k = 0; k < levels.size(); ++k)
+      if (levels[k].index >= 0) position_of_input[static_cast<size_t>(levels[k].index)] = static_cast<int>(k);
+    const double eps = settings.min_excess_k;
+    for (int k = 0; k < n_an; ++k) {
+      Level& lv = levels[k];
+      double slope = 0;
+      lv.theta_w_star = table.theta_w_k(lv.t, lv.lnp, virtual_mode ? nullptr : &slope);
+      lv.sat = virtual_mode ? saturation_theta_w(lv.t, lv.r, lv.lnp, &slope) : lv.theta_w_star;
+      lv.sat_eps = lv.sat + eps * slope;
+    }
+    segs.resize(static_cast<size_t>(std::max(n_an - 1, 0)));
+    suffix_eps.resize(segs.size());
+    for (int k = 0; k + 1 < n_an; ++k) {
+      const Level& a = levels[k];
+      const Level& b = levels[k + 1];
+      double slope = 0;
+      const double sat_m = saturation_theta_w(0.5 * (a.t + b.t), 0.5 * (a.r + b.r), 0.5 * (a.lnp + b.lnp), &slope);
+      Segment& sg = segs[k];
+      sg.sat = Quadratic::through(a.sat, sat_m, b.sat);
+      sg.sat_eps = Quadratic::through(a.sat_eps, sat_m + eps * slope, b.sat_eps);
+      sg.min_sat = sg.sat.min_on(0, 1);
+      sg.min_sat_eps = sg.sat_eps.min_on(0, 1);
+    }
+    for (int k = static_cast<int>(segs.size()) - 1; k >= 0; --k)
+      suffix_eps[k] = std::min(segs[k].min_sat_eps, k + 1 < static_cast<int>(segs.size()) ? suffix_eps[k + 1] : segs[k].min_sat_eps);
+    // Source layer: levels within source_layer_pa of the lowest usable level (inclusive).
+    n_source = 0;
+    const double p_floor = levels[0].p - settings.source_layer_pa;
+    while (n_source < n_an && levels[n_source].p >= p_floor - 1e-6 && levels[n_source].index >= 0) ++n_source;
+  }
+
+  // Pressure (ln p) where the excess crosses min_excess_k between positions a (flagged) and b.
+  double boundary_lnp(int flagged, int other) {
+    Parcel& pf = parcels[flagged];
+    Parcel& po = parcels[other];
+    compute_excess(pf);
+    compute_excess(po);
+    const double eps = settings.min_excess_k;
+    if (std::isnan(po.excess) || std::isnan(pf.excess) || pf.excess <= po.excess) return levels[flagged].lnp;
+    const double f = std::clamp((eps - po.excess) / (pf.excess - po.excess), 0.0, 1.0);
+    return levels[other].lnp + f * (levels[flagged].lnp - levels[other].lnp);
+  }
+
+  void analyze(const ColumnInput& in, ColumnResult& res) {
+    const bool with_levels = settings.level_fields;
+    res.qc = QcCounts{};
+    res.set_missing(in.n_levels, with_levels);
+    if (!load(in, res.qc)) {
+      res.qc.columns_skipped = 1;
+      return;
+    }
+    build_analysis_column();
+    if (n_an < kMinUsableLevels) {
+      res.qc.columns_skipped = 1;
+      return;
+    }
+    res.qc.columns_analysed = 1;
+
+    // Tangent saturated adiabat: minimum theta_w_star over the levels up to the top (lowest on ties).
+    for (int k = 0; k < n_an; ++k) {
+      if (levels[k].index < 0) continue;
+      if (std::isnan(res.tangent_theta_w_k) || levels[k].theta_w_star < res.tangent_theta_w_k) {
+        res.tangent_theta_w_k = levels[k].theta_w_star;
+        res.tangent_pressure_pa = levels[k].p;
+      }
+    }
+
+    // Parcels: every level of the source layer (every level with level fields).
+    const int n_parcels = with_levels ? static_cast<int>(levels.size()) : n_source;
+    parcels.resize(levels.size());
+    for (int k = 0; k < n_parcels; ++k)
+      if (levels[k].index >= 0) init_parcel(k);
+
+    // Most-unstable parcel: largest theta_w in the source layer, lowest on ties.
+    int mu = -1;
+    for (int k = 0; k < n_source; ++k)
+      if (mu < 0 || parcels[k].theta_w > parcels[mu].theta_w) mu = k;
+    if (mu >= 0) {
+      Parcel& pc = parcels[mu];
+      res.mu_pressure_pa = levels[mu].p;
+      res.mu_theta_w_k = pc.theta_w;
+      const ParcelAscent a = full_ascent(pc);
+      res.mu_cape_j_kg = a.cape_j_kg;
+      if (pc.flagged) {
+        res.mu_cin_j_kg = a.cin_j_kg;
+        res.mu_lfc_pressure_pa = a.lfc_pressure_pa;
+        res.mu_el_pressure_pa = a.el_pressure_pa;
+        res.mu_lift_to_lfc_pa = levels[mu].p - a.lfc_pressure_pa;
+        res.mu_lift_to_lfc_z_m = height_at_lnp(pc.lfc_lnp) - levels[mu].z;
+        res.latent_class = static_cast<std::int8_t>(a.cape_j_kg > a.cin_j_kg ? LatentClass::real_latent
+                                                                              : LatentClass::pseudo_latent);
+      } else {
+        res.latent_class = static_cast<std::int8_t>(LatentClass::none);
+      }
+    }
+
+    // Easiest lift over the flagged parcels of the source layer (lowest level on ties).
+    for (int k = 0; k < n_source; ++k) {
+      const Parcel& pc = parcels[k];
+      if (!pc.flagged) continue;
+      const double lift = levels[k].p - std::exp(pc.lfc_lnp);
+      if (std::isnan(res.easiest_lift_pa) || lift < res.easiest_lift_pa) {
+        res.easiest_lift_pa = lift;
+        res.easiest_lift_pressure_pa = levels[k].p;
+      }
+    }
+
+    // Latently unstable layers: runs of flagged levels inside the source layer.
+    double depth = 0.0, depth_z = 0.0;
+    for (int k = 0; k < n_source;) {
+      if (!parcels[k].flagged) {
+        ++k;
+        continue;
+      }
+      int top = k;
+      while (top + 1 < n_source && parcels[top + 1].flagged) ++top;
+      const double lnp_bottom = (k == 0) ? levels[0].lnp : boundary_lnp(k, k - 1);
+      const double lnp_top = (top + 1 < n_source) ? boundary_lnp(top, top + 1) : levels[top].lnp;
+      const double p_bottom = std::exp(lnp_bottom), p_top = std::exp(lnp_top);
+      if (std::isnan(res.latent_layer_bottom_pa)) {
+        res.latent_layer_bottom_pa = p_bottom;
+        res.latent_layer_top_pa = p_top;
+      }
+      depth += p_bottom - p_top;
+      depth_z += height_at_lnp(lnp_top) - height_at_lnp(lnp_bottom);
+      k = top + 1;
+    }
+    res.latent_layer_depth_pa = depth;
+    res.latent_layer_depth_z_m = depth_z;
+
+    if (with_levels) fill_level_fields(res);
+  }
+
+  void fill_level_fields(ColumnResult& res) {
+    LevelFields& lf = res.levels;
+    const double kappa_dry = thermo::kKappaDry;
+    int prev_real = -1;  // position of the previous real level (bottom up)
+    for (int k = 0; k < static_cast<int>(levels.size()); ++k) {
+      const Level& lv = levels[k];
+      if (lv.index < 0) continue;
+      const size_t i = static_cast<size_t>(lv.index);
+      Parcel& pc = parcels[k];
+      compute_excess(pc);
+      lf.dew_point_k[i] = thermo::dew_point_k(lv.e);
+      lf.wet_bulb_potential_temperature_k[i] = pc.theta_w;
+      lf.wet_bulb_temperature_k[i] = std::min(lv.t, table.temperature_k(pc.theta_w, lv.lnp));
+      lf.saturation_theta_w_k[i] = k < n_an ? lv.theta_w_star : table.theta_w_k(lv.t, lv.lnp);
+      lf.max_parcel_excess_k[i] = pc.excess;
+      lf.latent_flag[i] = pc.flagged ? 1 : 0;
+      if (prev_real >= 0) {
+        // Layer from the previous real level (bottom) to this one (top).
+        const Level& b = levels[prev_real];
+        const size_t ib = static_cast<size_t>(b.index);
+        const double t_dry = b.t * std::exp(kappa_dry * (lv.lnp - b.lnp));
+        const double theta_b = prev_real < n_an ? b.theta_w_star : table.theta_w_k(b.t, b.lnp);
+        const double t_moist = table.temperature_k(theta_b, lv.lnp);
+        const double thickness = lv.z - b.z;
+        const double band = std::isnan(thickness) ? 0.0 : kNeutralBandKPerM * std::fabs(thickness);
+        const double d_dry = lv.t - t_dry, d_moist = lv.t - t_moist;
+        const bool near_dry = std::fabs(d_dry) <= band, near_moist = std::fabs(d_moist) <= band;
+        StabilityClass c;
+        if (near_dry && near_moist)
+          c = std::fabs(d_dry) <= std::fabs(d_moist) ? StabilityClass::neutral_dry : StabilityClass::neutral_saturated;
+        else if (near_dry)
+          c = StabilityClass::neutral_dry;
+        else if (near_moist)
+          c = StabilityClass::neutral_saturated;
+        else if (d_moist > band)
+          c = StabilityClass::absolutely_stable;
+        else if (d_dry < -band)
+          c = StabilityClass::absolutely_unstable;
+        else
+          c = StabilityClass::conditionally_unstable;
+        lf.stability_class[ib] = static_cast<std::int8_t>(c);
+        lf.potential_instability[ib] = pc.theta_w < parcels[prev_real].theta_w ? 1 : 0;
+      }
+      prev_real = k;
+    }
+  }
+};
+
+ColumnAnalyzer::ColumnAnalyzer(const AnalysisSettings& settings) : impl_(new Impl(settings)) {}
+ColumnAnalyzer::~ColumnAnalyzer() { delete impl_; }
+
+void ColumnAnalyzer::analyze(const ColumnInput& column, ColumnResult& result) { impl_->analyze(column, result); }
+
+const AnalysisSettings& ColumnAnalyzer::settings() const { return impl_->settings; }
+
+ParcelAscent ColumnAnalyzer::ascent_from_level(int level) const {
+  Impl& im = *impl_;
+  if (level < 0 || level >= static_cast<int>(im.position_of_input.size()) || im.position_of_input[level] < 0)
+    throw std::invalid_argument("ascent_from_level: level is not a usable level of the last column");
+  const int k = im.position_of_input[static_cast<size_t>(level)];
+  im.parcels.resize(im.levels.size());
+  im.init_parcel(k);
+  return im.full_ascent(im.parcels[k]);
+}
+
+ColumnResult analyze_column(const ColumnInput& column, const AnalysisSettings& settings) {
+  ColumnAnalyzer analyzer(settings);
+  ColumnResult result;
+  analyzer.analyze(column, result);
+  return result;
+}
+
+}  // namespace latentlift

@@ -1,0 +1,271 @@
+// Pseudo-adiabats: the reference integrator and the fast tables built from it.
+#include "latentlift/pseudoadiabat.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <stdexcept>
+
+#include "latentlift/thermo.hpp"
+
+namespace latentlift::pseudoadiabat {
+
+namespace {
+
+// dT/d(ln p) along the pseudo-adiabat (METHODS: AMS Glossary form, multiplied by p).
+inline double slope(double temp_k, double ln_p) {
+  const double p = std::exp(ln_p);
+  return p * thermo::pseudoadiabatic_dtdp(temp_k, p);
+}
+
+// Dormand-Prince 5(4) with step-size control (Dormand and Prince 1980, J. Comput.
+// Appl. Math. 6), integrating T from x0 to x1 in x = ln p. Absolute tolerance in K.
+double integrate(double temp_k, double x0, double x1, double tolerance_k = 1e-10) {
+  if (x0 == x1) return temp_k;
+  const double direction = x1 > x0 ? 1.0 : -1.0;
+  double h = direction * 0.02;
+  double x = x0, t = temp_k;
+  int guard = 0;
+  while ((x1 - x) * direction > 1e-15) {
+    if (++guard > 100000) throw std::runtime_error("pseudo-adiabat integration did not converge");
+    if ((x + h - x1) * direction > 0) h = x1 - x;
+    const double k1 = slope(t, x);
+    const double k2 = slope(t + h * (k1 / 5), x + h / 5);
+    const double k3 = slope(t + h * (3 * k1 / 40 + 9 * k2 / 40), x + 3 * h / 10);
+    const double k4 = slope(t + h * (44 * k1 / 45 - 56 * k2 / 15 + 32 * k3 / 9), x + 4 * h / 5);
+    const double k5 = slope(t + h * (19372 * k1 / 6561 - 25360 * k2 / 2187 + 64448 * k3 / 6561 -
+                                     212 * k4 / 729),
+                            x + 8 * h / 9);
+    const double k6 = slope(t + h * (9017 * k1 / 3168 - 355 * k2 / 33 + 46732 * k3 / 5247 +
+                                     49 * k4 / 176 - 5103 * k5 / 18656),
+                            x + h);
+    const double t5 = t + h * (35 * k1 / 384 + 500 * k3 / 1113 + 125 * k4 / 192 -
+                               2187 * k5 / 6784 + 11 * k6 / 84);
+    const double k7 = slope(t5, x + h);
+    const double error =
+        std::fabs(h * ((35.0 / 384 - 5179.0 / 57600) * k1 + (500.0 / 1113 - 7571.0 / 16695) * k3 +
+                       (125.0 / 192 - 393.0 / 640) * k4 + (-2187.0 / 6784 + 92097.0 / 339200) * k5 +
+                       (11.0 / 84 - 187.0 / 2100) * k6 - k7 / 40));
+    if (error <= tolerance_k || std::fabs(h) < 1e-9) {
+      x += h;
+      t = t5;
+    }
+    const double factor = error > 0 ? 0.9 * std::pow(tolerance_k / error, 0.2) : 5.0;
+    h *= std::clamp(factor, 0.2, 5.0);
+  }
+  return t;
+}
+
+const double kLnReference = std::log(thermo::kReferencePressurePa);
+
+// Cubic Lagrange weights for nodes -1, 0, 1, 2 at fraction t in [0, 1], and their derivatives.
+inline void cubic_weights(double t, double w[4]) {
+  const double tm1 = t - 1.0, tm2 = t - 2.0, tp1 = t + 1.0;
+  w[0] = -t * tm1 * tm2 / 6.0;
+  w[1] = tp1 * tm1 * tm2 / 2.0;
+  w[2] = -tp1 * t * tm2 / 2.0;
+  w[3] = tp1 * t * tm1 / 6.0;
+}
+inline void cubic_derivative_weights(double t, double d[4]) {
+  d[0] = -(3 * t * t - 6 * t + 2) / 6.0;
+  d[1] = (3 * t * t - 4 * t - 1) / 2.0;
+  d[2] = -(3 * t * t - 2 * t - 2) / 2.0;
+  d[3] = (3 * t * t - 1) / 6.0;
+}
+// First stencil node and fraction for coordinate x on a grid of n nodes.
+inline int stencil(double x, double x0, double dx, int n, double& t) {
+  const double u = (x - x0) / dx;
+  int i = static_cast<int>(std::floor(u)) - 1;
+  i = std::clamp(i, 0, n - 4);
+  t = u - (i + 1);
+  return i;
+}
+
+}  // namespace
+
+double reference_follow_k(double temp_k, double from_pa, double to_pa) {
+  return integrate(temp_k, std::log(from_pa), std::log(to_pa));
+}
+
+double reference_temperature_k(double theta_w_k, double pressure_pa) {
+  return integrate(theta_w_k, kLnReference, std::log(pressure_pa));
+}
+
+double reference_theta_w_k(double temp_k, double pressure_pa) {
+  return integrate(temp_k, std::log(pressure_pa), kLnReference);
+}
+
+// ---------------------------------------------------------------- the tables
+
+namespace {
+constexpr double kThetaStepK = 1.0;
+constexpr double kLnpStep = 0.02;
+constexpr double kTempMinK = 100.0;
+constexpr double kTempMaxK = 360.0;
+constexpr double kTempStepK = 1.0;
+
+// Invert one row: values f over a grid g (monotonic increasing) at target y; cubic in g.
+double invert_row(const double* f, int n, double g0, double dg, double y) {
+  if (y <= f[0]) return g0 + (y - f[0]) / (f[1] - f[0]) * dg;
+  if (y >= f[n - 1]) return g0 + (n - 1) * dg + (y - f[n - 1]) / (f[n - 1] - f[n - 2]) * dg;
+  int lo = 0, hi = n - 1;
+  while (hi - lo > 1) {
+    const int mid = (lo + hi) / 2;
+    (f[mid] <= y ? lo : hi) = mid;
+  }
+  // Newton on the cubic through the stencil around [lo, lo+1], kept inside the cell.
+  const int i = std::clamp(lo - 1, 0, n - 4);
+  double t = (lo - (i + 1)) + (y - f[lo]) / (f[lo + 1] - f[lo]);
+  const double t_lo = lo - (i + 1), t_hi = t_lo + 1.0;
+  for (int iter = 0; iter < 30; ++iter) {
+    double w[4], d[4];
+    cubic_weights(t, w);
+    cubic_derivative_weights(t, d);
+    double v = 0, dv = 0;
+    for (int k = 0; k < 4; ++k) {
+      v += w[k] * f[i + k];
+      dv += d[k] * f[i + k];
+    }
+    const double step = (v - y) / dv;
+    t = std::clamp(t - step, t_lo, t_hi);
+    if (std::fabs(step) < 1e-13) break;
+  }
+  return g0 + (i + 1 + t) * dg;
+}
+}  // namespace
+
+Table::Table() {
+  theta_ = {kThetaMinK, kThetaStepK, static_cast<int>(std::lround((kThetaMaxK - kThetaMinK) / kThetaStepK)) + 1};
+  const double x0 = std::log(kPressureMinPa);
+  lnp_ = {x0, kLnpStep, static_cast<int>(std::ceil((std::log(kPressureMaxPa) - x0) / kLnpStep)) + 1};
+  temp_ = {kTempMinK, kTempStepK, static_cast<int>(std::lround((kTempMaxK - kTempMinK) / kTempStepK)) + 1};
+  tv_ = temp_;
+
+  const int nt = theta_.nx, np = lnp_.nx;
+  t_of_theta_.assign(static_cast<size_t>(nt) * np, 0.0);
+  tv_of_theta_.assign(static_cast<size_t>(nt) * np, 0.0);
+  // Reference node nearest above 1000 hPa; integrate outwards from 1000 hPa in both directions.
+  const int j_ref = static_cast<int>(std::floor((kLnReference - x0) / kLnpStep));
+  for (int i = 0; i < nt; ++i) {
+    const double theta = theta_.x0 + i * theta_.dx;
+    double t = theta, x = kLnReference;
+    for (int j = j_ref; j >= 0; --j) {
+      const double xj = x0 + j * kLnpStep;
+      t = integrate(t, x, xj);
+      x = xj;
+      t_of_theta_[static_cast<size_t>(j) * nt + i] = t;
+    }
+    t = theta;
+    x = kLnReference;
+    for (int j = j_ref + 1; j < np; ++j) {
+      const double xj = x0 + j * kLnpStep;
+      t = integrate(t, x, xj);
+      x = xj;
+      t_of_theta_[static_cast<size_t>(j) * nt + i] = t;
+    }
+  }
+  for (int j = 0; j < np; ++j) {
+    const double p = std::exp(x0 + j * kLnpStep);
+    for (int i = 0; i < nt; ++i) {
+      const size_t k = static_cast<size_t>(j) * nt + i;
+      const double t = t_of_theta_[k];
+      tv_of_theta_[k] = thermo::virtual_temperature_k(t, thermo::saturation_mixing_ratio(t, p));
+    }
+  }
+  const int nT = temp_.nx;
+  theta_of_t_.assign(static_cast<size_t>(nT) * np, 0.0);
+  theta_of_tv_.assign(static_cast<size_t>(nT) * np, 0.0);
+  for (int j = 0; j < np; ++j) {
+    const double* row_t = &t_of_theta_[static_cast<size_t>(j) * nt];
+    const double* row_tv = &tv_of_theta_[static_cast<size_t>(j) * nt];
+    for (int i = 0; i < nT; ++i) {
+      const double y = temp_.x0 + i * temp_.dx;
+      theta_of_t_[static_cast<size_t>(j) * nT + i] = invert_row(row_t, nt, theta_.x0, theta_.dx, y);
+      theta_of_tv_[static_cast<size_t>(j) * nT + i] = invert_row(row_tv, nt, theta_.x0, theta_.dx, y);
+    }
+  }
+}
+
+const Table& Table::instance() {
+  static const Table table;
+  return table;
+}
+
+double Table::interp(const std::vector<double>& values, const Grid& gx, double x, double y,
+                     double* dvdx) const {
+  double tx, ty;
+  const int ix = stencil(x, gx.x0, gx.dx, gx.nx, tx);
+  const int iy = stencil(y, lnp_.x0, lnp_.dx, lnp_.nx, ty);
+  double wx[4], wy[4];
+  cubic_weights(tx, wx);
+  cubic_weights(ty, wy);
+  const double* base = values.data() + static_cast<size_t>(iy) * gx.nx + ix;
+  double v = 0.0;
+  double rows[4];
+  for (int k = 0; k < 4; ++k) {
+    double col = 0.0;
+    for (int r = 0; r < 4; ++r) col += wy[r] * base[static_cast<size_t>(r) * gx.nx + k];
+    rows[k] = col;
+    v += wx[k] * col;
+  }
+  if (dvdx) {
+    double dx[4];
+    cubic_derivative_weights(tx, dx);
+    double d = 0.0;
+    for (int k = 0; k < 4; ++k) d += dx[k] * rows[k];
+    *dvdx = d / gx.dx;
+  }
+  return v;
+}
+
+double Table::temperature_k(double theta_w_k, double ln_pressure_pa) const {
+  return interp(t_of_theta_, theta_, theta_w_k, ln_pressure_pa, nullptr);
+}
+
+double Table::virtual_temperature_k(double theta_w_k, double ln_pressure_pa) const {
+  return interp(tv_of_theta_, theta_, theta_w_k, ln_pressure_pa, nullptr);
+}
+
+double Table::theta_w_k(double temp_k, double ln_pressure_pa, double* dtheta_dt) const {
+  return interp(theta_of_t_, temp_, temp_k, ln_pressure_pa, dtheta_dt);
+}
+
+double Table::theta_w_from_virtual_k(double tv_k, double ln_pressure_pa, double* dtheta_dtv) const {
+  return interp(theta_of_tv_, tv_, tv_k, ln_pressure_pa, dtheta_dtv);
+}
+
+Table::Curve Table::curve(double theta_w_k) const {
+  Curve c;
+  c.table_ = this;
+  double t;
+  c.i0_ = stencil(theta_w_k, theta_.x0, theta_.dx, theta_.nx, t);
+  cubic_weights(t, c.w_);
+  return c;
+}
+
+namespace {
+inline double curve_lookup(const std::vector<double>& values, int nx, int i0, const double w[4],
+                           double y, double y0, double dy, int ny) {
+  double ty;
+  const int iy = stencil(y, y0, dy, ny, ty);
+  double wy[4];
+  cubic_weights(ty, wy);
+  double v = 0.0;
+  for (int r = 0; r < 4; ++r) {
+    const double* row = values.data() + static_cast<size_t>(iy + r) * nx + i0;
+    v += wy[r] * (w[0] * row[0] + w[1] * row[1] + w[2] * row[2] + w[3] * row[3]);
+  }
+  return v;
+}
+}  // namespace
+
+double Table::Curve::temperature_k(double ln_pressure_pa) const {
+  const Table& t = *table_;
+  return curve_lookup(t.t_of_theta_, t.theta_.nx, i0_, w_, ln_pressure_pa, t.lnp_.x0, t.lnp_.dx, t.lnp_.nx);
+}
+
+double Table::Curve::virtual_temperature_k(double ln_pressure_pa) const {
+  const Table& t = *table_;
+  return curve_lookup(t.tv_of_theta_, t.theta_.nx, i0_, w_, ln_pressure_pa, t.lnp_.x0, t.lnp_.dx, t.lnp_.nx);
+}
+
+}  // namespace latentlift::pseudoadiabat

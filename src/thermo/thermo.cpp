@@ -1,0 +1,86 @@
+// Moist thermodynamics (see include/latentlift/thermo.hpp for units and sources).
+#include "latentlift/thermo.hpp"
+
+#include <cmath>
+
+namespace latentlift::thermo {
+
+namespace {
+// Bolton (1980) eq. 10 coefficients: es = 6.112 hPa exp(17.67 t / (t + 243.5)), t in degC.
+constexpr double kEs0Pa = 611.2;
+constexpr double kEsA = 17.67;
+constexpr double kEsB = 243.5;
+}  // namespace
+
+double latent_heat_vaporisation(double temp_k) {
+  return (2.501 - 0.00237 * (temp_k - kZeroCelsiusK)) * 1.0e6;  // Bolton (1980) eq. 2
+}
+
+double saturation_vapour_pressure_pa(double temp_k) {
+  const double t = temp_k - kZeroCelsiusK;
+  return kEs0Pa * std::exp(kEsA * t / (t + kEsB));
+}
+
+double dew_point_k(double vapour_pressure_pa) {
+  const double l = std::log(vapour_pressure_pa / kEs0Pa);
+  return kZeroCelsiusK + kEsB * l / (kEsA - l);
+}
+
+double mixing_ratio(double vapour_pressure_pa, double pressure_pa) {
+  return kEps * vapour_pressure_pa / (pressure_pa - vapour_pressure_pa);
+}
+
+double vapour_pressure_from_mixing_ratio_pa(double r, double pressure_pa) {
+  return r * pressure_pa / (kEps + r);
+}
+
+double vapour_pressure_from_specific_humidity_pa(double q, double pressure_pa) {
+  return q * pressure_pa / (kEps + (1.0 - kEps) * q);
+}
+
+double saturation_mixing_ratio(double temp_k, double pressure_pa) {
+  return mixing_ratio(saturation_vapour_pressure_pa(temp_k), pressure_pa);
+}
+
+double virtual_temperature_k(double temp_k, double r) {
+  return temp_k * (1.0 + r / kEps) / (1.0 + r);
+}
+
+double poisson_kappa(double r) { return kKappaDry * (1.0 - 0.28 * r); }
+
+double poisson_temperature_k(double temp_k, double from_pa, double to_pa, double kappa) {
+  return temp_k * std::pow(to_pa / from_pa, kappa);
+}
+
+double potential_temperature_k(double temp_k, double pressure_pa, double r) {
+  return poisson_temperature_k(temp_k, pressure_pa, kReferencePressurePa, poisson_kappa(r));
+}
+
+double lcl_temperature_k(double temp_k, double dew_point_k) {
+  // Bolton (1980) eq. 15.
+  return 1.0 / (1.0 / (dew_point_k - 56.0) + std::log(temp_k / dew_point_k) / 800.0) + 56.0;
+}
+
+double lcl_pressure_pa(double temp_k, double pressure_pa, double lcl_temp_k, double r) {
+  return pressure_pa * std::pow(lcl_temp_k / temp_k, 1.0 / poisson_kappa(r));
+}
+
+double equivalent_potential_temperature_k(double temp_k, double dew_point_k, double pressure_pa) {
+  // Bolton (1980) eq. 39 (r in g/kg inside the formula).
+  const double e = saturation_vapour_pressure_pa(dew_point_k);
+  const double r_gkg = 1000.0 * mixing_ratio(e, pressure_pa);
+  const double t_l = lcl_temperature_k(temp_k, dew_point_k);
+  const double theta = temp_k * std::pow(kReferencePressurePa / pressure_pa, 0.2854 * (1.0 - 0.28e-3 * r_gkg));
+  return theta * std::exp((3.376 / t_l - 0.00254) * r_gkg * (1.0 + 0.81e-3 * r_gkg));
+}
+
+double pseudoadiabatic_dtdp(double temp_k, double pressure_pa) {
+  const double rs = saturation_mixing_ratio(temp_k, pressure_pa);
+  const double lv = latent_heat_vaporisation(temp_k);
+  const double numerator = (1.0 + rs / kEps) * (kRd * temp_k + lv * rs);
+  const double denominator =
+      pressure_pa * (kCpd + rs * kCpv + lv * lv * rs * (kEps + rs) / (kRd * temp_k * temp_k));
+  return numerator / denominator;
+}
+
+}  // namespace latentlift::thermo
