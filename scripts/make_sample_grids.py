@@ -89,6 +89,19 @@ def smooth_step(x):
     return 0.5 * (1.0 + np.tanh(x))
 
 
+def capping_layer(p_hpa, base_hpa, amplitude_k, decay=0.35):
+    """Warming of an elevated inversion: rises over ~20 hPa above base_hpa to amplitude_k, then
+    fades slowly upward (decay in ln p), so the air above the cap is steep but never superadiabatic."""
+    rise = smooth_step(np.log(base_hpa / p_hpa) / 0.012 - 1.5)
+    fade = np.exp(-np.maximum(np.log(0.975 * base_hpa / p_hpa), 0.0) / decay)
+    return amplitude_k * rise * fade
+
+
+def surface_inversion(p_hpa, sfc_hpa, amplitude_k, depth=0.08):
+    """Cooling of the air next to the ground (a surface-based inversion), fading upward."""
+    return -amplitude_k * np.exp(-np.maximum(np.log(sfc_hpa / p_hpa), 0.0) / depth)
+
+
 # ----------------------------------------------------------------------------- regional grid
 def lcc_inverse(x, y, lat0, lon0, lat1, lat2, radius):
     """Spherical Lambert conformal conic, inverse (Snyder 1987, USGS PP 1395, eqs. 15-1 to 15-3, 14-10, 14-11)."""
@@ -135,14 +148,14 @@ def regional_state(x_km, y_km, hour):
 
     # afternoon heating of the land in the warm sector (hour 6 and 12 are late morning and afternoon)
     heating = 2.5 * np.sin(np.pi * np.clip(hour - 2.0, 0.0, 14.0) / 14.0) * land[..., None]
-    t_warm = lapse_profile(297.0 + heating - 0.0015 * np.maximum(Y, -600.0), 6.6, 212.0, P)
-    # trade-wind-like inversion over the open sea in the south: a cap that strengthens southward
-    cap = 3.5 * smooth_step((-500.0 - Y) / 250.0) * np.exp(-((np.log(P / 860.0)) / 0.045) ** 2)
-    t_warm = t_warm + cap
+    t_warm = lapse_profile(295.5 + heating - 0.0015 * np.maximum(Y, -600.0), 6.6, 212.0, P)
+    # a dry capping inversion over the open sea in the south, strengthening southward
+    cap = 8.0 * smooth_step((-500.0 - Y) / 150.0) * capping_layer(P, 880.0, 1.0)
     t_cool = lapse_profile(286.0, 5.2, 216.0, P)
-    # polar air: shallow surface inversion, then 4.8 K/km
-    t_cold = lapse_profile(276.0, 4.8, 219.0, P) + 2.5 * np.exp(-((np.log(P / 930.0)) / 0.05) ** 2)
-    temp = warm * t_warm + cool * t_cool + cold * t_cold
+    # polar air: surface inversion, then 4.8 K/km
+    t_cold = lapse_profile(277.0, 4.8, 219.0, P) + surface_inversion(P, 1000.0, 3.0)
+    temp_moist = warm * t_warm + cool * t_cool + cold * t_cold
+    temp = temp_moist + warm * cap
 
     # relative humidity: moist warm sector, a saturated cloud band along the cold front, dry polar air
     rh_warm = np.interp(P, [100, 250, 400, 700, 850, 1000], [0.05, 0.12, 0.30, 0.45, 0.75, 0.83])
@@ -151,7 +164,7 @@ def regional_state(x_km, y_km, hour):
     rh = warm * rh_warm + cool * rh_cool + cold * rh_cold
     band = np.exp(-((X - x_cf - 60.0) / 90.0) ** 2) * (P >= 400.0)
     rh = rh + (0.97 - rh) * band * 0.9
-    q = specific_humidity(rh, temp, P)
+    q = specific_humidity(rh, temp_moist, P)      # the cap is dry: humidity from the air below it
     q = np.where(P < 100.01, np.minimum(q, 4e-6), q)
 
     # mean-sea-level pressure: a low to the north-west, a high over the south-east sea
@@ -275,16 +288,17 @@ def global_state(lat2d, lon2d, hour):
     lapse = 6.4 - 2.2 * np.sin(phi) ** 2
     t_trop = 196.0 + 22.0 * np.sin(phi) ** 2
     temp = lapse_profile(t_sfc, lapse, t_trop, P)
-    # winter polar surface inversion (north), trade inversion over the subtropical oceans
-    temp = temp + 9.0 * np.clip(np.sin(phi), 0, 1) ** 4 * np.exp(-((np.log(P / 880.0)) / 0.09) ** 2)
+    # winter polar surface inversion (north); dry trade inversion over the subtropical oceans
+    temp = temp + np.clip(np.sin(phi), 0, 1) ** 4 * surface_inversion(P, 1000.0, 12.0, 0.1)
     subtropics = np.exp(-((np.abs(np.degrees(phi)) - 22.0) / 7.0) ** 2) * (1.0 - land[..., None])
-    temp = temp + 3.0 * subtropics * np.exp(-((np.log(P / 850.0)) / 0.05) ** 2)
+    temp_moist = temp
+    temp = temp + subtropics * capping_layer(P, 900.0, 3.0)
 
     tropics = np.exp(-((np.degrees(phi) + 5.0) / 16.0) ** 2)
     rh_moist = np.interp(P, [10, 100, 300, 500, 700, 850, 1000], [0.02, 0.10, 0.40, 0.50, 0.60, 0.80, 0.85])
     rh_dry = np.interp(P, [10, 100, 300, 500, 700, 850, 1000], [0.02, 0.10, 0.20, 0.25, 0.30, 0.55, 0.70])
     rh = tropics * rh_moist + (1.0 - tropics) * rh_dry
-    q = specific_humidity(rh, temp, P)
+    q = specific_humidity(rh, temp_moist, P)
     tv = virtual_temperature(temp, q)
     mslp = 1011.0 + 9.0 * np.exp(-((np.abs(lat2d) - 32.0) / 12.0) ** 2) - 10.0 * np.exp(-((np.abs(lat2d) - 60.0) / 10.0) ** 2)
     z1000 = RD * tv[..., 0] / G * np.log(mslp / 1000.0)
