@@ -1,0 +1,119 @@
+// End to end on real model output: NCEP GFS 2.5 degree forecasts on pressure levels
+// (T, geopotential height, relative humidity on 26 levels) with their surface fields
+// (surface pressure, orography, NCEP's own surface-based CAPE/CIN) in a second file.
+//
+// Data credit: NCEP GFS model output (NOAA/NWS/NCEP), sample files from the pygrib
+// repository; works of the US federal government, public domain. Converted to NetCDF
+// with ecCodes (see ../shared/real-data/ncep-nwp-pressure-levels/SOURCE.md).
+//
+// The files are analysed with the default configuration and no flags. NCEP's CAPE uses its
+// own parcel conventions (surface-based), so it is a plausibility reference, not a check value.
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <string>
+
+#include <gtest/gtest.h>
+
+#include "cli/cli_support.hpp"
+
+namespace latentlift::test::cli {
+namespace {
+
+std::string gfs_dir() { return real_data_dir() + "/ncep-nwp-pressure-levels/derived-netcdf"; }
+
+struct GfsRun {
+  bool skipped = false;
+  std::string output;
+  Field mu_cape, latent_class, tangent_theta_w, ncep_cape;
+  std::vector<double> latitude;  // per output row
+};
+
+GfsRun analyze_gfs(const std::string& stem) {
+  GfsRun run;
+  std::string pl = gfs_dir() + "/" + stem + "_pl_t_gh_r.nc", sfc = gfs_dir() + "/" + stem + "_sfc_sp_orog_cape_cin.nc";
+  if (!std::filesystem::exists(pl) || !std::filesystem::exists(sfc)) {
+    run.skipped = true;
+    return run;
+  }
+  run.output = test_scratch() + "/gfs.nc";
+  CommandResult r = run_command(binary() + " analyze " + quote(pl) + " " + quote(sfc) + " -o " + quote(run.output));
+  EXPECT_EQ(r.exit_code, 0) << r.output;
+  if (r.exit_code != 0) return run;
+  NcFile out(run.output), in(sfc);
+  run.mu_cape = read_field(out, "mu_cape");
+  run.latent_class = read_field(out, "latent_class");
+  run.tangent_theta_w = read_field(out, "tangent_theta_w");
+  run.ncep_cape = read_field(in, "cape");
+  // the output keeps the input's grid: same dimensions (time, latitude, longitude) and sizes
+  EXPECT_EQ(run.mu_cape.dims, run.ncep_cape.dims);
+  EXPECT_EQ(run.mu_cape.lens, run.ncep_cape.lens);
+  Field lat = read_field(out, "latitude"), lat_in = read_field(in, "latitude");
+  EXPECT_EQ(lat.values, lat_in.values);
+  run.latitude = lat.values;
+  return run;
+}
+
+double latitude_of(const GfsRun& run, size_t k) {
+  size_t n_lon = run.mu_cape.lens.back();
+  return run.latitude[(k / n_lon) % run.latitude.size()];
+}
+
+// Shared plausibility checks; polar_winter: latitude range holding winter polar air.
+void expect_plausible(const GfsRun& run, double polar_lat_min, double polar_lat_max) {
+  size_t n = run.mu_cape.size();
+  ASSERT_GT(n, 10000u);
+  ASSERT_EQ(run.ncep_cape.size(), n);
+
+  // most columns are analysed (only columns with too few usable levels may be skipped)
+  size_t analysed = std::count_if(run.tangent_theta_w.values.begin(), run.tangent_theta_w.values.end(),
+                                  [](double v) { return !std::isnan(v); });
+  EXPECT_GE(analysed, static_cast<size_t>(0.95 * n)) << "analysed " << analysed << " of " << n;
+
+  // where NCEP's surface-based CAPE is large, the most-unstable parcel is latently unstable with large CAPE
+  size_t big = 0, big_ok = 0;
+  for (size_t k = 0; k < n; ++k) {
+    if (!(run.ncep_cape.values[k] >= 1000.0)) continue;
+    ++big;
+    if (run.mu_cape.values[k] >= 300.0 && run.latent_class.values[k] >= 1.0) ++big_ok;
+  }
+  ASSERT_GT(big, 10u);
+  EXPECT_GE(big_ok, static_cast<size_t>(0.85 * big)) << big_ok << " of " << big << " high-CAPE columns";
+
+  // the largest CAPE is of the order of NCEP's largest (a few thousand J/kg), not absurd
+  double max_ours = 0, max_ncep = 0;
+  for (size_t k = 0; k < n; ++k) {
+    if (!std::isnan(run.mu_cape.values[k])) max_ours = std::max(max_ours, run.mu_cape.values[k]);
+    if (!std::isnan(run.ncep_cape.values[k])) max_ncep = std::max(max_ncep, run.ncep_cape.values[k]);
+  }
+  EXPECT_GT(max_ours, 0.5 * max_ncep);
+  EXPECT_LT(max_ours, 3.0 * max_ncep);
+
+  // no latent instability in winter polar air
+  size_t polar = 0, polar_latent = 0;
+  for (size_t k = 0; k < n; ++k) {
+    double lat = latitude_of(run, k);
+    if (lat < polar_lat_min || lat > polar_lat_max) continue;
+    ++polar;
+    if (run.latent_class.values[k] >= 1.0 || run.mu_cape.values[k] > 10.0) ++polar_latent;
+  }
+  ASSERT_GT(polar, 100u);
+  EXPECT_LE(polar_latent, static_cast<size_t>(0.02 * polar)) << polar_latent << " of " << polar << " polar columns";
+}
+
+TEST(RealGfs, January2011ForecastAnalysesWithDefaultsAndIsPlausible) {
+  GfsRun run = analyze_gfs("gfs_2p5deg_20110110_12z_f120");
+  if (run.skipped) GTEST_SKIP() << "shared real-data folder absent: " << gfs_dir();
+  ASSERT_FALSE(HasFailure());
+  expect_plausible(run, 65.0, 90.0);  // valid 15 January: Arctic winter
+}
+
+TEST(RealGfs, October2011ForecastAnalysesWithDefaultsAndIsPlausible) {
+  GfsRun run = analyze_gfs("gfs_2p5deg_20111008_00z_f072");
+  if (run.skipped) GTEST_SKIP() << "shared real-data folder absent: " << gfs_dir();
+  ASSERT_FALSE(HasFailure());
+  expect_plausible(run, -90.0, -70.0);  // valid 11 October: Antarctic late winter
+}
+
+}  // namespace
+}  // namespace latentlift::test::cli
