@@ -25,7 +25,7 @@ def band_state(lat, lon):
     lam = np.radians(lon)[None, None, :]
     p = LEVELS_HPA[:, None, None]
     wave = np.cos(4 * lam + 2 * phi) * np.cos(phi) + 0.5 * np.sin(7 * lam - 3 * phi) * np.cos(phi) ** 2
-    t_sfc = 300.0 - 50.0 * np.sin(phi - np.radians(-5.0)) ** 2 + 4.0 * wave
+    t_sfc = 297.0 - 50.0 * np.sin(phi - np.radians(-5.0)) ** 2 + 3.0 * wave
     lapse = 6.3 - 2.0 * np.sin(phi) ** 2 + 0.4 * wave
     t_trop = 196.0 + 22.0 * np.sin(phi) ** 2
     t = t_sfc * (p / 1000.0) ** (RD * lapse * 1e-3 / G)
