@@ -1,11 +1,49 @@
-// Placeholder until the CLI lands (replaced by the command-line module).
-#include <cstdio>
-
+// The command line: builds the CLI11 app, registers the subcommands, maps errors to
+// one line on stderr and an exit code (2 bad usage or input, 1 runtime failure).
 #include "latentlift/cli.hpp"
 
+#include <cstdio>
+#include <exception>
+#include <string>
+
+#include "cli/commands.hpp"
+#include "latentlift/errors.hpp"
+
 namespace latentlift::cli {
-int run(int, char**) {
-  std::fputs("latentlift: command line not built yet\n", stderr);
-  return 1;
+
+int run(int argc, char** argv) {
+  CLI::App app{"latentlift: Normand's latent instability for every column of NWP pressure-level output",
+               "latentlift"};
+  app.set_version_flag("--version", std::string("latentlift ") + LATENTLIFT_VERSION);
+  app.require_subcommand(1);
+  int exit_code = 0;
+  add_analyze_command(app, exit_code);
+  add_column_command(app, exit_code);
+  add_climatology_command(app, exit_code);
+  add_reproject_command(app, exit_code);
+  add_quicklook_command(app, exit_code);
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForAllHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    return 2;
+  } catch (const InputError& e) {
+    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    return 2;
+  } catch (const UsageError& e) {
+    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    return 2;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    return 1;
+  }
+  return exit_code;
 }
+
 }  // namespace latentlift::cli

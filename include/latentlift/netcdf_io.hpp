@@ -1,0 +1,141 @@
+// NetCDF input and output (no physics). The reader finds quantities by CF
+// standard_name then aliases, converts units with UDUNITS-2 to SI, unpacks and masks,
+// and hands out blocks of columns; the writer writes CF-1.8 NetCDF-4 through a
+// temporary file renamed into place on commit(). netCDF-C stays behind PIMPL.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <map>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "latentlift/column.hpp"
+#include "latentlift/grid.hpp"
+
+namespace latentlift {
+
+/// Variable names to try, per quantity, after the CF standard_name. Keys: air_temperature,
+/// specific_humidity, relative_humidity, dew_point_temperature, humidity_mixing_ratio,
+/// geopotential, geopotential_height, surface_air_pressure.
+using InputAliases = std::map<std::string, std::vector<std::string>>;
+
+/// One block of columns in SI units, [column][level] (levels in the input's order), NaN = missing.
+struct ColumnBlock {
+  ColumnRange range;
+  int n_levels = 0;
+  HumidityKind humidity_kind = HumidityKind::specific_humidity;
+  std::vector<double> temp_k;               // K
+  std::vector<double> humidity;             // kg/kg, fraction 0-1, or K (dew point)
+  std::vector<double> height_m;             // geopotential height, m
+  std::vector<double> surface_pressure_pa;  // per column, Pa; empty without surface pressure
+  bool any_temp = false, any_humidity = false, any_height = false;  // any value not missing
+};
+
+/// Which variable of which file supplies a quantity.
+struct QuantitySource {
+  std::string quantity;  // CF standard_name of the quantity found
+  std::string variable;
+  std::string file;
+  std::string units;     // as in the file
+};
+
+/// The input files of one analysis, opened together.
+class InputDataset {
+ public:
+  /// Open the files: several time steps of one grid (concatenated along time) and/or
+  /// fields split across files. Throws InputError naming file, variable and expectation.
+  InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases);
+  ~InputDataset();
+  InputDataset(const InputDataset&) = delete;
+  InputDataset& operator=(const InputDataset&) = delete;
+
+  const GridDescription& grid() const;
+  HumidityKind humidity_kind() const;
+  const std::vector<std::string>& paths() const;
+  /// The variables used, one per quantity (temperature, humidity, geopotential, surface pressure).
+  std::vector<QuantitySource> sources() const;
+
+  /// Read columns `range` of outer step `step` into block (resized as needed).
+  /// Thread-safe (serialised on the netCDF lock); InputError when a read fails.
+  void read_block(std::size_t step, ColumnRange range, ColumnBlock& block) const;
+
+  /// Throw the InputError for a step whose temperature, humidity or height (flag false) is all missing.
+  [[noreturn]] void throw_all_missing(std::size_t step, bool any_temp, bool any_humidity, bool any_height) const;
+
+  /// Latitude and longitude (degrees) of every column, row-major; InputError when the input has none.
+  void column_lat_lon(std::vector<double>& lat_deg, std::vector<double>& lon_deg) const;
+
+  struct Impl;
+  const Impl& impl() const { return *impl_; }
+
+ private:
+  std::unique_ptr<Impl> impl_;
+};
+
+/// Scalar output fields of one outer step, keyed by DESIGN output names, in output units
+/// (hPa, K, m, J kg-1); NaN (real) or -1 (byte) = missing; row-major over the columns.
+struct FieldSet {
+  std::size_t n_columns = 0;
+  std::map<std::string, std::vector<float>> real;
+  std::map<std::string, std::vector<std::int8_t>> byte;
+  QcCounts qc;
+};
+
+/// Per-level output fields of one block, [field][level][column in block].
+struct LevelFieldBlock {
+  ColumnRange range;
+  int n_levels = 0;
+  std::map<std::string, std::vector<float>> real;
+  std::map<std::string, std::vector<std::int8_t>> byte;
+};
+
+/// Names of the output fields (DESIGN.md), in file order.
+const std::vector<std::string>& real_field_names();        // latent_layer_depth ... easiest_lift_pressure
+const std::vector<std::string>& byte_field_names();        // latent_class
+const std::vector<std::string>& real_level_field_names();  // wet_bulb_temperature ... max_parcel_excess
+const std::vector<std::string>& byte_level_field_names();  // latent_flag, stability_class, potential_instability
+
+struct OutputOptions {
+  bool level_fields = false;
+  bool overwrite = false;
+  int deflate_level = 1;                   // 0 (none) to 9
+  std::size_t block_columns = 65536;       // chunking of per-level fields follows the blocks
+  std::vector<std::size_t> time_indices;   // input time indices written (empty: all)
+  std::string history;                     // command line, appended to the history attribute
+  std::string settings;                    // settings record (global attribute)
+};
+
+/// A CF-1.8 NetCDF-4 output file, written to "<target>.tmp-<pid>" and renamed into place by commit().
+class OutputWriter {
+ public:
+  /// Refuses an existing target without options.overwrite (UsageError).
+  OutputWriter(const std::string& target, const InputDataset& input, const OutputOptions& options);
+  /// Removes the temporary file unless commit() succeeded.
+  ~OutputWriter();
+  OutputWriter(const OutputWriter&) = delete;
+  OutputWriter& operator=(const OutputWriter&) = delete;
+
+  /// Number of outer steps in the output (time subset x other outer dimensions).
+  std::size_t n_steps() const;
+  /// The input step written at output step out_step.
+  std::size_t input_step(std::size_t out_step) const;
+  void write_fields(std::size_t out_step, const FieldSet& fields);
+  void write_level_block(std::size_t out_step, const LevelFieldBlock& block);
+  /// Record the QC counts, close and rename into place.
+  void commit(const QcCounts& qc);
+  const std::string& temporary_path() const;
+
+  struct Impl;
+
+ private:
+  std::unique_ptr<Impl> impl_;
+};
+
+/// Copy the input's grid_mapping variable (and its attributes) to the output; the single
+/// place where a CRS completion (crs_wkt from PROJ) hooks in. ncid_in/ncid_out are netCDF ids.
+void write_grid_mapping(int ncid_in, int ncid_out, const std::string& grid_mapping_name,
+                        const std::string& input_file);
+
+}  // namespace latentlift

@@ -1,0 +1,93 @@
+// latentlift analyze INPUT.nc... -o OUT.nc [--config FILE] [--set KEY=VALUE]... [--threads N]
+//                   [--level-fields] [--overwrite] [--quiet]
+#include <unistd.h>
+
+#include <algorithm>
+#include <cstdio>
+#include <string>
+#include <vector>
+
+#include "cli/commands.hpp"
+#include "latentlift/errors.hpp"
+#include "latentlift/parallel.hpp"
+#include "latentlift/pipeline.hpp"
+
+namespace latentlift::cli {
+
+namespace {
+
+struct AnalyzeArgs {
+  std::vector<std::string> inputs;
+  std::string output, config;
+  std::vector<std::string> sets;
+  int threads = 0;
+  bool level_fields = false, overwrite = false, quiet = false;
+};
+
+std::string command_line(int argc, const std::vector<std::string>& words) {
+  (void)argc;
+  std::string text = "latentlift analyze";
+  for (const std::string& w : words) text += " " + w;
+  return text;
+}
+
+int run_analyze(const AnalyzeArgs& args) {
+  PipelineOptions options;
+  options.config = load_config(args.config, args.sets);
+  options.level_fields = args.level_fields;
+  options.threads = args.threads;
+  const bool progress = !args.quiet && isatty(fileno(stderr));
+  if (progress)
+    options.progress = [](const Progress& p) {
+      std::fprintf(stderr, "\ranalyze: step %zu/%zu, columns %zu/%zu (%3.0f%%)   ", p.step + 1, p.n_steps,
+                   p.columns_done, p.n_columns, 100.0 * p.columns_done / std::max<std::size_t>(1, p.n_columns));
+      std::fflush(stderr);
+    };
+  InputDataset input(args.inputs, options.config.aliases);
+  OutputOptions output_options;
+  output_options.overwrite = args.overwrite;
+  std::vector<std::string> words;
+  for (const std::string& in : args.inputs) words.push_back(in);
+  words.push_back("-o " + args.output);
+  if (!args.config.empty()) words.push_back("--config " + args.config);
+  for (const std::string& s : args.sets) words.push_back("--set " + s);
+  if (args.threads > 0) words.push_back("--threads " + std::to_string(args.threads));
+  if (args.level_fields) words.push_back("--level-fields");
+  if (args.overwrite) words.push_back("--overwrite");
+  output_options.history = command_line(0, words);
+  RunSummary summary = analyze_to_file(input, args.output, options, output_options);
+  if (progress) std::fputs("\n", stderr);
+  if (!args.quiet) {
+    const QcCounts& qc = summary.qc;
+    std::printf("analyze: wrote %s\n", args.output.c_str());
+    std::printf("  steps %zu, columns %zu: analysed %ld, skipped %ld (fewer than 3 usable levels)\n", summary.steps,
+                summary.columns, qc.columns_analysed, qc.columns_skipped);
+    std::printf("  quality control: humidity clipped %ld, dew point corrected %ld, temperatures rejected %ld\n",
+                qc.humidity_clipped, qc.dew_point_corrected, qc.temperature_rejected);
+    std::printf("  time %.2f s on %d threads, %.0f columns/s\n", summary.seconds, parallel::max_threads(),
+                summary.seconds > 0 ? summary.columns / summary.seconds : 0.0);
+  }
+  return 0;
+}
+
+}  // namespace
+
+void add_analyze_command(CLI::App& app, int& exit_code) {
+  auto args = std::make_shared<AnalyzeArgs>();
+  CLI::App* cmd = app.add_subcommand("analyze", "Analyse every column of NetCDF input and write CF NetCDF fields");
+  cmd->add_option("inputs", args->inputs, "Input NetCDF files (time steps of one grid, or fields split across files)")
+      ->required()
+      ->check(CLI::ExistingFile);
+  cmd->add_option("-o,--output", args->output, "Output NetCDF file")->required();
+  cmd->add_option("--config", args->config, "Configuration file (TOML)")->check(CLI::ExistingFile);
+  cmd->add_option("--set", args->sets, "Override a configuration key: section.key=value (repeatable)")
+      ->allow_extra_args(false)
+      ->take_all();
+  cmd->add_option("--threads", args->threads, "Threads over columns (default: all cores)")->check(CLI::PositiveNumber);
+  cmd->add_flag("--level-fields", args->level_fields, "Also write the per-level fields");
+  cmd->add_flag("--overwrite", args->overwrite, "Replace an existing output file");
+  cmd->add_flag("--quiet", args->quiet, "No progress line and no run summary");
+  cmd->callback([args, &exit_code] { exit_code = run_analyze(*args); });
+}
+
+}  // namespace latentlift::cli

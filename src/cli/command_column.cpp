@@ -1,0 +1,228 @@
+// latentlift column INPUT.nc --lat LAT --lon LON [--time INDEX] [--format table|csv|json]
+//                   [--config FILE] [--set KEY=VALUE]...
+// The grid column nearest (great-circle distance) to a point: per-level table and summary.
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+#include <memory>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "cli/commands.hpp"
+#include "latentlift/column.hpp"
+#include "latentlift/config.hpp"
+#include "latentlift/errors.hpp"
+#include "latentlift/netcdf_io.hpp"
+#include "latentlift/thermo.hpp"
+
+namespace latentlift::cli {
+
+namespace {
+
+struct ColumnArgs {
+  std::string input, config, format = "table";
+  std::vector<std::string> sets;
+  double lat = 0.0, lon = 0.0;
+  std::size_t time = 0;
+};
+
+constexpr double kDegToRad = 3.14159265358979323846 / 180.0;
+
+/// Central angle between two points (haversine; common practice), radians.
+double central_angle(double lat1, double lon1, double lat2, double lon2) {
+  const double p1 = lat1 * kDegToRad, p2 = lat2 * kDegToRad;
+  const double dp = p2 - p1, dl = (lon2 - lon1) * kDegToRad;
+  const double a = std::sin(dp / 2) * std::sin(dp / 2) + std::cos(p1) * std::cos(p2) * std::sin(dl / 2) * std::sin(dl / 2);
+  return 2.0 * std::asin(std::min(1.0, std::sqrt(a)));
+}
+
+std::string number(double value, int decimals) {
+  if (std::isnan(value)) return "";
+  char text[64];
+  std::snprintf(text, sizeof text, "%.*f", decimals, value);
+  return text;
+}
+
+const char* stability_name(int code) {
+  static const char* names[] = {"absolutely_stable", "conditionally_unstable", "absolutely_unstable",
+                                "neutral_saturated", "neutral_dry"};
+  return code >= 0 && code <= 4 ? names[code] : "";
+}
+
+const char* latent_class_name(int code) {
+  static const char* names[] = {"none", "pseudo_latent", "real_latent"};
+  return code >= 0 && code <= 2 ? names[code] : "";
+}
+
+struct Row {
+  double p_hpa, z_m, t_k, td_k, tw_k, thw_k, thws_k, excess_k;
+  int latent_flag, stability;
+};
+
+int run_column(const ColumnArgs& args) {
+  if (args.format != "table" && args.format != "csv" && args.format != "json")
+    throw UsageError("--format: expected table, csv or json, got " + args.format);
+  if (!(args.lat >= -90.0 && args.lat <= 90.0)) throw UsageError("--lat: expected -90 to 90 degrees");
+  RunConfig config = load_config(args.config, args.sets);
+  InputDataset input(std::vector<std::string>{args.input}, config.aliases);
+  const GridDescription& grid = input.grid();
+  if (args.time >= grid.n_times)
+    throw UsageError("--time " + std::to_string(args.time) + ": the input has " + std::to_string(grid.n_times) +
+                     " time step(s) (0 to " + std::to_string(grid.n_times - 1) + ")");
+  std::vector<double> lats, lons;
+  input.column_lat_lon(lats, lons);
+  std::size_t best = 0;
+  double best_angle = std::numeric_limits<double>::infinity();
+  for (std::size_t c = 0; c < lats.size(); ++c) {
+    if (std::isnan(lats[c]) || std::isnan(lons[c])) continue;
+    double angle = central_angle(args.lat, args.lon, lats[c], lons[c]);
+    if (angle < best_angle) {
+      best_angle = angle;
+      best = c;
+    }
+  }
+  // The first step of the chosen time (other outer dimensions at index 0).
+  std::size_t step = 0;
+  for (std::size_t s = 0; s < grid.n_steps; ++s)
+    if (time_index_of_step(grid, s) == args.time) {
+      step = s;
+      break;
+    }
+  ColumnBlock block;
+  input.read_block(step, {best, 1}, block);
+  AnalysisSettings settings = config.analysis;
+  settings.level_fields = true;
+  ColumnInput in;
+  in.n_levels = block.n_levels;
+  in.pressure_pa = grid.pressure_pa.data();
+  in.temp_k = block.temp_k.data();
+  in.humidity = block.humidity.data();
+  in.humidity_kind = block.humidity_kind;
+  in.height_m = block.height_m.data();
+  in.surface_pressure_pa = block.surface_pressure_pa.empty() ? -1.0 : block.surface_pressure_pa[0];
+  ColumnAnalyzer analyzer(settings);
+  ColumnResult r;
+  analyzer.analyze(in, r);
+
+  // Levels from the bottom up (highest pressure first).
+  std::vector<int> order(block.n_levels);
+  for (int k = 0; k < block.n_levels; ++k) order[k] = k;
+  std::sort(order.begin(), order.end(), [&](int a, int b) { return grid.pressure_pa[a] > grid.pressure_pa[b]; });
+  std::vector<Row> rows;
+  const LevelFields& lf = r.levels;
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  auto at = [&](const std::vector<double>& v, int k) { return k < static_cast<int>(v.size()) ? v[k] : nan; };
+  auto at8 = [&](const std::vector<std::int8_t>& v, int k) { return k < static_cast<int>(v.size()) ? int(v[k]) : -1; };
+  for (int k : order)
+    rows.push_back({grid.pressure_pa[k] / 100.0, block.height_m[k], block.temp_k[k], at(lf.dew_point_k, k),
+                    at(lf.wet_bulb_temperature_k, k), at(lf.wet_bulb_potential_temperature_k, k),
+                    at(lf.saturation_theta_w_k, k), at(lf.max_parcel_excess_k, k), at8(lf.latent_flag, k),
+                    at8(lf.stability_class, k)});
+  struct Summary {
+    const char* name;
+    const char* units;
+    double value;
+  };
+  const std::vector<Summary> summary = {
+      {"latent_layer_depth", "hPa", r.latent_layer_depth_pa / 100},
+      {"latent_layer_depth_z", "m", r.latent_layer_depth_z_m},
+      {"latent_layer_bottom", "hPa", r.latent_layer_bottom_pa / 100},
+      {"latent_layer_top", "hPa", r.latent_layer_top_pa / 100},
+      {"tangent_theta_w", "K", r.tangent_theta_w_k},
+      {"tangent_pressure", "hPa", r.tangent_pressure_pa / 100},
+      {"mu_pressure", "hPa", r.mu_pressure_pa / 100},
+      {"mu_theta_w", "K", r.mu_theta_w_k},
+      {"mu_cape", "J kg-1", r.mu_cape_j_kg},
+      {"mu_cin", "J kg-1", r.mu_cin_j_kg},
+      {"mu_lfc_pressure", "hPa", r.mu_lfc_pressure_pa / 100},
+      {"mu_el_pressure", "hPa", r.mu_el_pressure_pa / 100},
+      {"mu_lift_to_lfc", "hPa", r.mu_lift_to_lfc_pa / 100},
+      {"mu_lift_to_lfc_z", "m", r.mu_lift_to_lfc_z_m},
+      {"easiest_lift", "hPa", r.easiest_lift_pa / 100},
+      {"easiest_lift_pressure", "hPa", r.easiest_lift_pressure_pa / 100},
+  };
+  const double distance_km = best_angle * 6371.0;  // mean Earth radius (IUGG), km
+  std::ostringstream out;
+  if (args.format == "json") {
+    auto json_number = [](double v, int decimals) { return std::isnan(v) ? std::string("null") : number(v, decimals); };
+    out << "{\n  \"file\": \"" << args.input << "\",\n  \"column\": " << best << ",\n  \"latitude\": "
+        << number(lats[best], 4) << ",\n  \"longitude\": " << number(lons[best], 4)
+        << ",\n  \"distance_km\": " << number(distance_km, 1) << ",\n  \"time_index\": " << args.time
+        << ",\n  \"levels\": [\n";
+    for (std::size_t i = 0; i < rows.size(); ++i) {
+      const Row& w = rows[i];
+      out << "    {\"pressure_hpa\": " << json_number(w.p_hpa, 2) << ", \"height_m\": " << json_number(w.z_m, 1)
+          << ", \"temperature_k\": " << json_number(w.t_k, 2) << ", \"dew_point_k\": " << json_number(w.td_k, 2)
+          << ", \"wet_bulb_temperature_k\": " << json_number(w.tw_k, 2)
+          << ", \"theta_w_k\": " << json_number(w.thw_k, 2) << ", \"theta_w_star_k\": " << json_number(w.thws_k, 2)
+          << ", \"max_parcel_excess_k\": " << json_number(w.excess_k, 2)
+          << ", \"latent_flag\": " << (w.latent_flag < 0 ? "null" : std::to_string(w.latent_flag))
+          << ", \"stability_class\": "
+          << (w.stability < 0 ? std::string("null") : "\"" + std::string(stability_name(w.stability)) + "\"") << "}"
+          << (i + 1 < rows.size() ? "," : "") << "\n";
+    }
+    out << "  ],\n  \"summary\": {\n";
+    for (const Summary& s : summary) out << "    \"" << s.name << "\": " << json_number(s.value, 2) << ",\n";
+    out << "    \"latent_class\": "
+        << (r.latent_class < 0 ? std::string("null") : "\"" + std::string(latent_class_name(r.latent_class)) + "\"")
+        << "\n  }\n}\n";
+  } else if (args.format == "csv") {
+    out << "pressure_hpa,height_m,temperature_k,dew_point_k,wet_bulb_temperature_k,theta_w_k,theta_w_star_k,"
+           "max_parcel_excess_k,latent_flag,stability_class\n";
+    for (const Row& w : rows)
+      out << number(w.p_hpa, 2) << ',' << number(w.z_m, 1) << ',' << number(w.t_k, 2) << ',' << number(w.td_k, 2) << ','
+          << number(w.tw_k, 2) << ',' << number(w.thw_k, 2) << ',' << number(w.thws_k, 2) << ','
+          << number(w.excess_k, 2) << ',' << (w.latent_flag < 0 ? "" : std::to_string(w.latent_flag)) << ','
+          << stability_name(w.stability) << '\n';
+    out << "\nfield,value,units\n";
+    for (const Summary& s : summary) out << s.name << ',' << number(s.value, 2) << ',' << s.units << '\n';
+    out << "latent_class," << latent_class_name(r.latent_class) << ",\n";
+  } else {
+    char line[256];
+    std::snprintf(line, sizeof line, "column %zu at %.4f, %.4f (%.1f km from %.4f, %.4f), time index %zu\n", best,
+                  lats[best], lons[best], distance_km, args.lat, args.lon, args.time);
+    out << line;
+    std::snprintf(line, sizeof line, "%8s %8s %7s %7s %7s %7s %7s %7s %6s  %s\n", "p hPa", "z m", "T K", "Td K",
+                  "Tw K", "thw K", "thw* K", "exc K", "latent", "stability (layer above)");
+    out << line;
+    auto cell = [](double v, int decimals) { return std::isnan(v) ? std::string("-") : number(v, decimals); };
+    for (const Row& w : rows) {
+      std::snprintf(line, sizeof line, "%8s %8s %7s %7s %7s %7s %7s %7s %6s  %s\n", cell(w.p_hpa, 1).c_str(),
+                    cell(w.z_m, 0).c_str(), cell(w.t_k, 1).c_str(), cell(w.td_k, 1).c_str(), cell(w.tw_k, 1).c_str(),
+                    cell(w.thw_k, 1).c_str(), cell(w.thws_k, 1).c_str(), cell(w.excess_k, 2).c_str(),
+                    w.latent_flag < 0 ? "-" : (w.latent_flag ? "yes" : "no"), stability_name(w.stability));
+      out << line;
+    }
+    out << "\n";
+    for (const Summary& s : summary) {
+      std::snprintf(line, sizeof line, "%-22s %10s %s\n", s.name, cell(s.value, 2).c_str(), s.units);
+      out << line;
+    }
+    std::snprintf(line, sizeof line, "%-22s %10s\n", "latent_class",
+                  r.latent_class < 0 ? "-" : latent_class_name(r.latent_class));
+    out << line;
+  }
+  std::fputs(out.str().c_str(), stdout);
+  return 0;
+}
+
+}  // namespace
+
+void add_column_command(CLI::App& app, int& exit_code) {
+  auto args = std::make_shared<ColumnArgs>();
+  CLI::App* cmd = app.add_subcommand("column", "Analyse the grid column nearest a point and print it level by level");
+  cmd->add_option("input", args->input, "Input NetCDF file")->required()->check(CLI::ExistingFile);
+  cmd->add_option("--lat", args->lat, "Latitude, degrees north")->required();
+  cmd->add_option("--lon", args->lon, "Longitude, degrees east")->required();
+  cmd->add_option("--time", args->time, "Time index (0-based)");
+  cmd->add_option("--format", args->format, "Output format: table, csv or json");
+  cmd->add_option("--config", args->config, "Configuration file (TOML)")->check(CLI::ExistingFile);
+  cmd->add_option("--set", args->sets, "Override a configuration key: section.key=value (repeatable)")
+      ->allow_extra_args(false)
+      ->take_all();
+  cmd->callback([args, &exit_code] { exit_code = run_column(*args); });
+}
+
+}  // namespace latentlift::cli

@@ -1,0 +1,60 @@
+// Internal to src/io: what the reader found, shared with the writer (which copies coordinates).
+#pragma once
+
+#include <cmath>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "io/netcdf_util.hpp"
+#include "io/units.hpp"
+#include "latentlift/netcdf_io.hpp"
+
+namespace latentlift {
+
+namespace io::detail {
+
+/// Role of one dimension of an input variable.
+enum class DimRole { vertical, horizontal, outer };
+
+/// One input variable, how to read it and how to turn raw values into SI.
+struct VarRef {
+  int file = -1;
+  int varid = -1;
+  std::string name, quantity, units;
+  VarShape shape;
+  std::vector<DimRole> roles;    // per variable dimension
+  std::vector<int> grid_dim;     // per variable dimension: index into grid.horizontal / grid.outer (-1 vertical)
+  std::vector<double> fills;     // raw values meaning missing
+  double valid_min = -HUGE_VAL, valid_max = HUGE_VAL;  // raw
+  double scale = 1.0, offset = 0.0;  // SI = raw * scale + offset (unpacking, units and 1/g folded in)
+  bool present() const { return varid >= 0; }
+};
+
+/// The variables of one run of time steps (one input file with temperature, plus split-off fields).
+struct Segment {
+  std::size_t time_offset = 0, time_length = 1;
+  VarRef temp, humidity, height, surface_pressure;
+};
+
+}  // namespace io::detail
+
+struct InputDataset::Impl {
+  std::vector<std::string> paths;
+  std::vector<io::detail::NcFile> files;
+  GridDescription grid;
+  HumidityKind humidity_kind = HumidityKind::specific_humidity;
+  std::vector<io::detail::Segment> segments;
+  int time_outer = -1;                 // index of the time dimension in grid.outer
+  // Where the writer copies coordinates from (file index and variable names in it).
+  int grid_file = 0;
+  std::string vertical_coordinate;     // coordinate variable of the pressure dimension ("" if none)
+  std::string lat_var, lon_var;        // latitude/longitude variables ("" if none)
+  std::vector<std::string> horizontal_coordinates;  // 1-D coordinate variables of the horizontal dims
+  std::vector<std::string> aux_coordinates;         // 2-D (or cell) lat/lon variables
+  std::vector<std::string> outer_coordinates;       // per outer dim, coordinate variable or ""
+
+  const io::detail::Segment& segment_of_time(std::size_t time_index, std::size_t& local) const;
+};
+
+}  // namespace latentlift

@@ -1,0 +1,63 @@
+// Internal to src/io: RAII owner of a netCDF id, status checks and attribute helpers.
+// netCDF-C is not thread-safe: every call goes under netcdf_mutex().
+#pragma once
+
+#include <mutex>
+#include <string>
+#include <vector>
+
+namespace latentlift::io::detail {
+
+/// The one lock around every netCDF-C call in the process.
+std::mutex& netcdf_mutex();
+
+/// Throw latentlift::Error "<file>: <what>: <nc_strerror>" when status is not NC_NOERR.
+void check(int status, const std::string& file, const std::string& what);
+
+/// Owner of an open netCDF dataset id; closes it on destruction.
+class NcFile {
+ public:
+  NcFile() = default;
+  /// Open read-only; a file that is not NetCDF or is damaged is an InputError.
+  static NcFile open_read(const std::string& path);
+  /// Create a NetCDF-4 file (clobbering path).
+  static NcFile create_netcdf4(const std::string& path);
+  ~NcFile();
+  NcFile(NcFile&& other) noexcept;
+  NcFile& operator=(NcFile&& other) noexcept;
+  NcFile(const NcFile&) = delete;
+  NcFile& operator=(const NcFile&) = delete;
+
+  int id() const { return id_; }
+  const std::string& path() const { return path_; }
+  /// Close now, reporting errors (the destructor closes silently).
+  void close();
+
+ private:
+  int id_ = -1;
+  std::string path_;
+};
+
+/// A variable's dimension ids, names and lengths.
+struct VarShape {
+  std::vector<int> dimids;
+  std::vector<std::string> names;
+  std::vector<std::size_t> lengths;
+};
+
+std::string var_name(int ncid, int varid);
+VarShape var_shape(int ncid, int varid);
+int var_type(int ncid, int varid);
+/// Id of the variable named name, or -1.
+int find_var(int ncid, const std::string& name);
+/// Id of the coordinate variable of dimension dim_name (1-D, same name), or -1.
+int coordinate_var(int ncid, const std::string& dim_name);
+bool has_attribute(int ncid, int varid, const char* name);
+/// Text attribute (trimmed), "" when absent or not text.
+std::string text_attribute(int ncid, int varid, const char* name);
+/// Numeric attribute values as double (empty when absent or text).
+std::vector<double> number_attribute(int ncid, int varid, const char* name);
+/// All values of a variable as double (no unpacking).
+std::vector<double> read_all_doubles(int ncid, int varid, const std::string& file);
+
+}  // namespace latentlift::io::detail

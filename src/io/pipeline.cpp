@@ -1,0 +1,322 @@
+// The gridded analysis loop. Knows no physics: it hands columns to ColumnAnalyzer and
+// moves the results into output arrays. One background thread does all netCDF work
+// (prefetching the next block, writing finished ones) while OpenMP threads analyse.
+#include "latentlift/pipeline.hpp"
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <condition_variable>
+#include <deque>
+#include <future>
+#include <limits>
+#include <memory>
+#include <thread>
+
+#include "latentlift/errors.hpp"
+#include "latentlift/parallel.hpp"
+
+namespace latentlift {
+namespace {
+
+constexpr double kHpaPerPa = 0.01;
+
+/// A single worker thread running tasks in order (all netCDF I/O of a run).
+class IoWorker {
+ public:
+  IoWorker() : thread_([this] { loop(); }) {}
+  ~IoWorker() {
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      stop_ = true;
+    }
+    wake_.notify_one();
+    thread_.join();
+  }
+  std::future<void> submit(std::function<void()> task) {
+    std::packaged_task<void()> packaged(std::move(task));
+    std::future<void> result = packaged.get_future();
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      queue_.push_back(std::move(packaged));
+    }
+    wake_.notify_one();
+    return result;
+  }
+
+ private:
+  void loop() {
+    for (;;) {
+      std::packaged_task<void()> task;
+      {
+        std::unique_lock<std::mutex> lock(mutex_);
+        wake_.wait(lock, [this] { return stop_ || !queue_.empty(); });
+        if (queue_.empty()) return;
+        task = std::move(queue_.front());
+        queue_.pop_front();
+      }
+      task();
+    }
+  }
+  std::mutex mutex_;
+  std::condition_variable wake_;
+  std::deque<std::packaged_task<void()>> queue_;
+  bool stop_ = false;
+  std::thread thread_;
+};
+
+void wait(std::future<void>& f) {
+  if (f.valid()) f.get();
+}
+
+/// Scalar results of one column, in the order of real_field_names(), in output units.
+inline void scalar_values(const ColumnResult& r, float* v) {
+  v[0] = static_cast<float>(r.latent_layer_depth_pa * kHpaPerPa);
+  v[1] = static_cast<float>(r.latent_layer_depth_z_m);
+  v[2] = static_cast<float>(r.latent_layer_bottom_pa * kHpaPerPa);
+  v[3] = static_cast<float>(r.latent_layer_top_pa * kHpaPerPa);
+  v[4] = static_cast<float>(r.tangent_theta_w_k);
+  v[5] = static_cast<float>(r.tangent_pressure_pa * kHpaPerPa);
+  v[6] = static_cast<float>(r.mu_pressure_pa * kHpaPerPa);
+  v[7] = static_cast<float>(r.mu_theta_w_k);
+  v[8] = static_cast<float>(r.mu_cape_j_kg);
+  v[9] = static_cast<float>(r.mu_cin_j_kg);
+  v[10] = static_cast<float>(r.mu_lfc_pressure_pa * kHpaPerPa);
+  v[11] = static_cast<float>(r.mu_el_pressure_pa * kHpaPerPa);
+  v[12] = static_cast<float>(r.mu_lift_to_lfc_pa * kHpaPerPa);
+  v[13] = static_cast<float>(r.mu_lift_to_lfc_z_m);
+  v[14] = static_cast<float>(r.easiest_lift_pa * kHpaPerPa);
+  v[15] = static_cast<float>(r.easiest_lift_pressure_pa * kHpaPerPa);
+}
+constexpr std::size_t kScalarFields = 16;
+
+void prepare(FieldSet& fields, std::size_t n_columns) {
+  fields.n_columns = n_columns;
+  fields.qc = QcCounts{};
+  for (const std::string& name : real_field_names()) fields.real[name].assign(n_columns, std::numeric_limits<float>::quiet_NaN());
+  for (const std::string& name : byte_field_names()) fields.byte[name].assign(n_columns, kByteMissing);
+}
+
+/// The analysis of one run: analyzers per thread, double buffers, the I/O worker.
+class Runner {
+ public:
+  Runner(const InputDataset& input, const PipelineOptions& options)
+      : input_(input), options_(options), grid_(input.grid()) {
+    int threads = options.threads > 0 ? options.threads : options.config.threads;
+    if (threads > 0) parallel::set_threads(threads);
+    settings_ = options.config.analysis;
+    settings_.level_fields = options.level_fields;
+    const int n = parallel::max_threads();
+    for (int i = 0; i < n; ++i) analyzers_.push_back(std::make_unique<ColumnAnalyzer>(settings_));
+    blocks_ = column_blocks(grid_, options.config.block_columns);
+    std::size_t largest = 0;
+    for (const ColumnRange& b : blocks_) largest = std::max(largest, b.count);
+    results_.resize(largest);
+  }
+
+  /// Analyse one input step into fields; level blocks go to level_sink (may be empty).
+  void run_step(std::size_t step, std::size_t step_number, std::size_t n_steps, FieldSet& fields,
+                const std::function<void(const LevelFieldBlock&)>& level_sink) {
+    try {
+      run_step_blocks(step, step_number, n_steps, fields, level_sink);
+    } catch (...) {  // pending I/O tasks refer to this step's buffers: let them finish first
+      if (reading_.valid()) reading_.wait();
+      for (auto& w : level_writes_)
+        if (w.valid()) w.wait();
+      throw;
+    }
+  }
+
+  IoWorker& io() { return io_; }
+
+ private:
+  void run_step_blocks(std::size_t step, std::size_t step_number, std::size_t n_steps, FieldSet& fields,
+                       const std::function<void(const LevelFieldBlock&)>& level_sink) {
+    std::future<void>& reading = reading_;
+    prepare(fields, grid_.n_columns);
+    const int nz = static_cast<int>(grid_.vertical.length);
+    bool any_t = false, any_h = false, any_z = false;
+    reading = io_.submit([&, step] { input_.read_block(step, blocks_[0], column_blocks_[0]); });
+    std::size_t done = 0;
+    for (std::size_t b = 0; b < blocks_.size(); ++b) {
+      wait(reading);
+      ColumnBlock& block = column_blocks_[b % 2];
+      if (b + 1 < blocks_.size()) {
+        ColumnBlock& next = column_blocks_[(b + 1) % 2];
+        const ColumnRange range = blocks_[b + 1];
+        reading = io_.submit([&, step, range] { input_.read_block(step, range, next); });
+      }
+      any_t = any_t || block.any_temp;
+      any_h = any_h || block.any_humidity;
+      any_z = any_z || block.any_height;
+      LevelFieldBlock& levels = level_blocks_[b % 2];
+      if (options_.level_fields) {
+        wait(level_writes_[b % 2]);  // the buffer is free again
+        prepare_levels(levels, block.range, nz);
+      }
+      analyze_block(block, fields, options_.level_fields ? &levels : nullptr);
+      if (options_.level_fields && level_sink)
+        level_writes_[b % 2] = io_.submit([&levels, &level_sink] { level_sink(levels); });
+      done += block.range.count;
+      if (options_.progress) options_.progress({step_number, n_steps, done, grid_.n_columns});
+    }
+    for (auto& w : level_writes_) wait(w);
+    if (!any_t || !any_h || !any_z) input_.throw_all_missing(step, any_t, any_h, any_z);
+  }
+
+  void prepare_levels(LevelFieldBlock& levels, ColumnRange range, int nz) {
+    levels.range = range;
+    levels.n_levels = nz;
+    const std::size_t n = range.count * static_cast<std::size_t>(nz);
+    for (const std::string& name : real_level_field_names()) levels.real[name].assign(n, std::numeric_limits<float>::quiet_NaN());
+    for (const std::string& name : byte_level_field_names()) levels.byte[name].assign(n, kByteMissing);
+  }
+
+  void analyze_block(const ColumnBlock& block, FieldSet& fields, LevelFieldBlock* levels) {
+    const int nz = block.n_levels;
+    const long count = static_cast<long>(block.range.count);
+    const std::size_t begin = block.range.begin;
+    float* real[kScalarFields];
+    for (std::size_t f = 0; f < kScalarFields; ++f) real[f] = fields.real[real_field_names()[f]].data();
+    std::int8_t* latent_class = fields.byte["latent_class"].data();
+    float* lev_real[4] = {nullptr, nullptr, nullptr, nullptr};
+    std::int8_t* lev_byte[3] = {nullptr, nullptr, nullptr};
+    if (levels) {
+      for (int f = 0; f < 4; ++f) lev_real[f] = levels->real[real_level_field_names()[f]].data();
+      for (int f = 0; f < 3; ++f) lev_byte[f] = levels->byte[byte_level_field_names()[f]].data();
+    }
+    const double* pressure = grid_.pressure_pa.data();
+    const bool with_ps = !block.surface_pressure_pa.empty();
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(dynamic, 64)
+#endif
+    for (long i = 0; i < count; ++i) {
+      ColumnAnalyzer& analyzer = *analyzers_[parallel::thread_index()];
+      ColumnInput in;
+      in.n_levels = nz;
+      in.pressure_pa = pressure;
+      in.temp_k = &block.temp_k[i * nz];
+      in.humidity = &block.humidity[i * nz];
+      in.humidity_kind = block.humidity_kind;
+      in.height_m = &block.height_m[i * nz];
+      in.surface_pressure_pa = with_ps ? block.surface_pressure_pa[i] : -1.0;
+      ColumnResult& r = results_[i];
+      analyzer.analyze(in, r);
+      float v[kScalarFields];
+      scalar_values(r, v);
+      for (std::size_t f = 0; f < kScalarFields; ++f) real[f][begin + i] = v[f];
+      latent_class[begin + i] = r.latent_class;
+      if (levels && r.levels.wet_bulb_temperature_k.size() == static_cast<std::size_t>(nz)) {
+        const LevelFields& lf = r.levels;
+        for (int k = 0; k < nz; ++k) {
+          const std::size_t at = static_cast<std::size_t>(k) * count + i;
+          lev_real[0][at] = static_cast<float>(lf.wet_bulb_temperature_k[k]);
+          lev_real[1][at] = static_cast<float>(lf.wet_bulb_potential_temperature_k[k]);
+          lev_real[2][at] = static_cast<float>(lf.saturation_theta_w_k[k]);
+          lev_real[3][at] = static_cast<float>(lf.max_parcel_excess_k[k]);
+          lev_byte[0][at] = lf.latent_flag[k];
+          lev_byte[1][at] = lf.stability_class[k];
+          lev_byte[2][at] = lf.potential_instability[k];
+        }
+      }
+    }
+    for (long i = 0; i < count; ++i) fields.qc.add(results_[i].qc);  // integer sums: order-independent
+  }
+
+  const InputDataset& input_;
+  const PipelineOptions& options_;
+  const GridDescription& grid_;
+  AnalysisSettings settings_;
+  std::vector<std::unique_ptr<ColumnAnalyzer>> analyzers_;
+  std::vector<ColumnRange> blocks_;
+  std::vector<ColumnResult> results_;
+  ColumnBlock column_blocks_[2];
+  LevelFieldBlock level_blocks_[2];
+  std::future<void> level_writes_[2];
+  std::future<void> reading_;
+  IoWorker io_;  // last: joined first, before the buffers its tasks use go away
+};
+
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+}  // namespace
+
+std::vector<std::size_t> steps_of_times(const GridDescription& grid, const std::vector<std::size_t>& time_indices) {
+  std::vector<std::size_t> steps;
+  for (std::size_t step = 0; step < grid.n_steps; ++step) {
+    if (time_indices.empty()) {
+      steps.push_back(step);
+      continue;
+    }
+    std::size_t t = time_index_of_step(grid, step);
+    if (std::find(time_indices.begin(), time_indices.end(), t) != time_indices.end()) steps.push_back(step);
+  }
+  return steps;
+}
+
+RunSummary analyze_to_file(const InputDataset& input, const std::string& output, const PipelineOptions& options,
+                           OutputOptions output_options) {
+  const auto start = std::chrono::steady_clock::now();
+  output_options.level_fields = options.level_fields;
+  output_options.time_indices = options.time_indices;
+  output_options.block_columns = options.config.block_columns;
+  output_options.deflate_level = options.config.deflate_level;
+  if (output_options.settings.empty()) output_options.settings = config_to_toml(options.config);
+  OutputWriter writer(output, input, output_options);
+  RunSummary summary;
+  {
+    Runner runner(input, options);
+    FieldSet fields[2];
+    std::future<void> writes[2];
+    const std::size_t n = writer.n_steps();
+    try {
+      for (std::size_t s = 0; s < n; ++s) {
+        FieldSet& current = fields[s % 2];
+        wait(writes[s % 2]);
+        auto level_sink = [&writer, s](const LevelFieldBlock& block) { writer.write_level_block(s, block); };
+        runner.run_step(writer.input_step(s), s, n, current, level_sink);
+        summary.qc.add(current.qc);
+        writes[s % 2] = runner.io().submit([&writer, &current, s] { writer.write_fields(s, current); });
+      }
+      for (auto& w : writes) wait(w);
+    } catch (...) {
+      for (auto& w : writes)  // let pending writes finish before their buffers go away
+        if (w.valid()) w.wait();
+      throw;
+    }
+    summary.steps = n;
+    summary.columns = n * input.grid().n_columns;
+  }
+  writer.commit(summary.qc);
+  summary.seconds = seconds_since(start);
+  return summary;
+}
+
+RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& options,
+                             const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer) {
+  const auto start = std::chrono::steady_clock::now();
+  const GridDescription& grid = input.grid();
+  for (std::size_t t : options.time_indices)
+    if (t >= grid.n_times)
+      throw UsageError("time index " + std::to_string(t) + " outside the input (" + std::to_string(grid.n_times) +
+                       " time steps)");
+  PipelineOptions scalar_only = options;
+  scalar_only.level_fields = false;
+  Runner runner(input, scalar_only);
+  RunSummary summary;
+  FieldSet fields;
+  const std::vector<std::size_t> steps = steps_of_times(grid, options.time_indices);
+  for (std::size_t i = 0; i < steps.size(); ++i) {
+    runner.run_step(steps[i], i, steps.size(), fields, {});
+    summary.qc.add(fields.qc);
+    consumer(steps[i], fields);
+  }
+  summary.steps = steps.size();
+  summary.columns = steps.size() * grid.n_columns;
+  summary.seconds = seconds_since(start);
+  return summary;
+}
+
+}  // namespace latentlift

@@ -1,0 +1,830 @@
+// The NetCDF reader: finds the quantities, classifies dimensions, converts to SI, reads blocks.
+#include <netcdf.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstring>
+#include <limits>
+#include <set>
+#include <sstream>
+
+#include "io/dataset_impl.hpp"
+#include "latentlift/errors.hpp"
+
+namespace latentlift {
+
+using io::detail::DimRole;
+using io::detail::NcFile;
+using io::detail::Segment;
+using io::detail::VarRef;
+using io::detail::VarShape;
+namespace d = io::detail;
+
+namespace {
+
+constexpr double kStandardGravity = 9.80665;  // m s-2 (CGPM 1901): geopotential height = geopotential / g
+
+const double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+bool is_one_of(const std::string& text, std::initializer_list<const char*> options) {
+  for (const char* option : options)
+    if (text == option) return true;
+  return false;
+}
+
+bool is_latitude(int ncid, int varid) {
+  std::string sn = d::text_attribute(ncid, varid, "standard_name");
+  std::string units = d::text_attribute(ncid, varid, "units");
+  return sn == "latitude" ||
+         is_one_of(units, {"degrees_north", "degree_north", "degree_N", "degrees_N", "degreeN", "degreesN"});
+}
+
+bool is_longitude(int ncid, int varid) {
+  std::string sn = d::text_attribute(ncid, varid, "standard_name");
+  std::string units = d::text_attribute(ncid, varid, "units");
+  return sn == "longitude" ||
+         is_one_of(units, {"degrees_east", "degree_east", "degree_E", "degrees_E", "degreeE", "degreesE"});
+}
+
+bool is_pressure_coordinate(int ncid, int varid) {
+  std::string units = d::text_attribute(ncid, varid, "units");
+  if (units.empty() || units.find(" since ") != std::string::npos) return false;
+  return d::convertible(units, "Pa");
+}
+
+bool is_time_coordinate(int ncid, int varid) {
+  std::string units = d::text_attribute(ncid, varid, "units");
+  return units.find(" since ") != std::string::npos || d::text_attribute(ncid, varid, "axis") == "T" ||
+         d::text_attribute(ncid, varid, "standard_name") == "time";
+}
+
+bool is_horizontal_coordinate(int ncid, int varid) {
+  std::string sn = d::text_attribute(ncid, varid, "standard_name");
+  std::string axis = d::text_attribute(ncid, varid, "axis");
+  return is_latitude(ncid, varid) || is_longitude(ncid, varid) || axis == "X" || axis == "Y" ||
+         is_one_of(sn, {"projection_x_coordinate", "projection_y_coordinate", "grid_latitude",
+                        "grid_longitude", "projection_x_angular_coordinate",
+                        "projection_y_angular_coordinate"});
+}
+
+std::vector<std::string> split_words(const std::string& text) {
+  std::istringstream in(text);
+  std::vector<std::string> words;
+  for (std::string word; in >> word;) words.push_back(word);
+  return words;
+}
+
+/// Latitude/longitude auxiliary variables of a data variable: its `coordinates` attribute,
+/// else any non-coordinate variable of the file with latitude/longitude units over its dims.
+void find_lat_lon_aux(int ncid, int varid, const VarShape& shape, std::string& lat, std::string& lon) {
+  std::vector<std::string> names = split_words(d::text_attribute(ncid, varid, "coordinates"));
+  int nvars = 0;
+  nc_inq_nvars(ncid, &nvars);
+  if (names.empty())
+    for (int v = 0; v < nvars; ++v) names.push_back(d::var_name(ncid, v));
+  for (const std::string& name : names) {
+    int id = d::find_var(ncid, name);
+    if (id < 0) continue;
+    VarShape s = d::var_shape(ncid, id);
+    if (s.names.empty() || (s.names.size() == 1 && s.names[0] == name)) continue;  // a coordinate variable
+    bool inside = std::all_of(s.names.begin(), s.names.end(), [&](const std::string& n) {
+      return std::find(shape.names.begin(), shape.names.end(), n) != shape.names.end();
+    });
+    if (!inside) continue;
+    if (lat.empty() && is_latitude(ncid, id)) lat = name;
+    if (lon.empty() && is_longitude(ncid, id)) lon = name;
+  }
+}
+
+/// Roles of the dimensions of a variable. vertical_dims counts the pressure dimensions.
+std::vector<DimRole> classify(int ncid, int varid, const VarShape& shape, int& vertical_dims) {
+  std::vector<DimRole> roles(shape.names.size(), DimRole::outer);
+  std::string lat, lon;
+  find_lat_lon_aux(ncid, varid, shape, lat, lon);
+  std::set<std::string> aux_dims;
+  for (const std::string& name : {lat, lon})
+    if (!name.empty())
+      for (const std::string& dim : d::var_shape(ncid, d::find_var(ncid, name)).names) aux_dims.insert(dim);
+  vertical_dims = 0;
+  for (std::size_t i = 0; i < shape.names.size(); ++i) {
+    const std::string& dim = shape.names[i];
+    int coord = d::coordinate_var(ncid, dim);
+    if (coord >= 0 && is_pressure_coordinate(ncid, coord)) {
+      roles[i] = DimRole::vertical;
+      ++vertical_dims;
+    } else if (coord >= 0 && is_time_coordinate(ncid, coord)) {
+      roles[i] = DimRole::outer;
+    } else if ((coord >= 0 && is_horizontal_coordinate(ncid, coord)) || aux_dims.count(dim)) {
+      roles[i] = DimRole::horizontal;
+    } else if (coord < 0 && is_one_of(dim, {"x", "y", "cell", "cells", "ncells", "nCells", "ncol", "node",
+                                            "nod2", "west_east", "south_north", "rlat", "rlon", "lat",
+                                            "lon", "latitude", "longitude", "xc", "yc"})) {
+      roles[i] = DimRole::horizontal;
+    }
+  }
+  return roles;
+}
+
+bool is_time_dim(int ncid, const std::string& dim) {
+  int coord = d::coordinate_var(ncid, dim);
+  if (coord >= 0) return is_time_coordinate(ncid, coord);
+  return dim == "time";
+}
+
+/// A quantity the reader looks for: standard names (in preference order) with their SI target units.
+struct Wanted {
+  const char* standard_name;
+  const char* si_units;
+  HumidityKind kind;
+};
+
+struct Candidate {
+  int varid = -1;
+  std::string standard_name;
+};
+
+/// Find a variable of one of `wanted` in a file: CF standard_name first, then aliases.
+/// need_vertical: 3-D fields need a pressure dimension (a 2-D field sharing the standard_name,
+/// e.g. orography tagged geopotential_height, is never taken); surface fields must lack one.
+Candidate find_quantity(int ncid, const std::vector<Wanted>& wanted, const InputAliases& aliases,
+                        bool need_vertical) {
+  auto fits = [&](int varid) {
+    VarShape shape = d::var_shape(ncid, varid);
+    int vertical = 0;
+    classify(ncid, varid, shape, vertical);
+    return need_vertical ? vertical == 1 : vertical == 0 && !shape.names.empty();
+  };
+  int nvars = 0;
+  nc_inq_nvars(ncid, &nvars);
+  for (const Wanted& w : wanted)
+    for (int v = 0; v < nvars; ++v)
+      if (d::text_attribute(ncid, v, "standard_name") == w.standard_name && fits(v))
+        return {v, w.standard_name};
+  for (const Wanted& w : wanted) {
+    auto it = aliases.find(w.standard_name);
+    if (it == aliases.end()) continue;
+    for (const std::string& name : it->second) {
+      int v = d::find_var(ncid, name);
+      if (v >= 0 && fits(v)) return {v, w.standard_name};
+    }
+  }
+  return {};
+}
+
+std::string looked_for(const std::vector<Wanted>& wanted, const InputAliases& aliases, bool need_vertical) {
+  std::string text = "standard_name ";
+  for (std::size_t i = 0; i < wanted.size(); ++i) text += (i ? " or '" : "'") + std::string(wanted[i].standard_name) + "'";
+  std::string names;
+  for (const Wanted& w : wanted) {
+    auto it = aliases.find(w.standard_name);
+    if (it == aliases.end()) continue;
+    for (const std::string& name : it->second) names += (names.empty() ? "" : ", ") + name;
+  }
+  if (!names.empty()) text += ", or a variable named " + names;
+  text += need_vertical ? ", on a pressure dimension" : ", without a pressure dimension";
+  return text;
+}
+
+const std::vector<Wanted> kTemperature = {{"air_temperature", "K", HumidityKind::specific_humidity}};
+const std::vector<Wanted> kHumidity = {
+    {"specific_humidity", "1", HumidityKind::specific_humidity},
+    {"humidity_mixing_ratio", "1", HumidityKind::mixing_ratio},
+    {"dew_point_temperature", "K", HumidityKind::dew_point},
+    {"relative_humidity", "1", HumidityKind::relative_humidity}};
+const std::vector<Wanted> kHeight = {{"geopotential_height", "m", HumidityKind::specific_humidity},
+                                     {"geopotential", "m2 s-2", HumidityKind::specific_humidity}};
+const std::vector<Wanted> kSurfacePressure = {{"surface_air_pressure", "Pa", HumidityKind::specific_humidity}};
+
+/// Build the VarRef of a found variable: packing, fill values, unit conversion to SI.
+VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
+  const int ncid = file.id();
+  VarRef var;
+  var.file = file_index;
+  var.varid = found.varid;
+  var.name = d::var_name(ncid, found.varid);
+  var.shape = d::var_shape(ncid, found.varid);
+  var.units = d::text_attribute(ncid, found.varid, "units");
+  var.quantity = found.standard_name;
+  bool has_units = d::has_attribute(ncid, found.varid, "units");
+
+  std::string target;
+  double factor = 1.0;
+  if (var.quantity == "air_temperature" || var.quantity == "dew_point_temperature") {
+    target = "K";
+  } else if (var.quantity == "specific_humidity" || var.quantity == "humidity_mixing_ratio") {
+    target = "1";
+    if (!has_units) var.units = "1";  // CF: dimensionless quantities may omit units
+  } else if (var.quantity == "relative_humidity") {
+    target = "1";
+  } else if (var.quantity == "surface_air_pressure") {
+    target = "Pa";
+  } else {  // geopotential or geopotential height, told apart by the units
+    if (has_units && d::convertible(var.units, "m2 s-2")) {
+      target = "m2 s-2";
+      factor = 1.0 / kStandardGravity;
+      var.quantity = "geopotential";
+    } else {
+      target = "m";
+      var.quantity = "geopotential_height";
+    }
+  }
+  if (!has_units)
+    throw InputError(file.path(), var.name, "a units attribute (expected units convertible to '" + target +
+                                                "' for " + var.quantity + ")");
+  double conv_scale = 1.0, conv_offset = 0.0;
+  try {
+    d::UnitConverter converter(var.units, target);
+    conv_offset = converter.convert(0.0);
+    conv_scale = converter.convert(1.0) - conv_offset;
+  } catch (const std::invalid_argument& e) {
+    std::string expectation = "units convertible to '" + target + "' for " + var.quantity;
+    if (var.quantity == "geopotential_height") expectation = "units of geopotential (m2 s-2) or geopotential height (m)";
+    throw InputError(file.path(), var.name, expectation + " (" + e.what() + ")");
+  }
+
+  std::vector<double> scale = d::number_attribute(ncid, found.varid, "scale_factor");
+  std::vector<double> offset = d::number_attribute(ncid, found.varid, "add_offset");
+  double pack_scale = scale.empty() ? 1.0 : scale[0];
+  double pack_offset = offset.empty() ? 0.0 : offset[0];
+  var.scale = pack_scale * conv_scale * factor;
+  var.offset = (pack_offset * conv_scale + conv_offset) * factor;
+
+  for (const char* name : {"_FillValue", "missing_value"})
+    for (double value : d::number_attribute(ncid, found.varid, name)) var.fills.push_back(value);
+  if (!d::has_attribute(ncid, found.varid, "_FillValue")) {
+    switch (d::var_type(ncid, found.varid)) {  // netCDF default fill values (unwritten data)
+      case NC_FLOAT: var.fills.push_back(static_cast<double>(NC_FILL_FLOAT)); break;
+      case NC_DOUBLE: var.fills.push_back(NC_FILL_DOUBLE); break;
+      case NC_SHORT: var.fills.push_back(NC_FILL_SHORT); break;
+      case NC_INT: var.fills.push_back(NC_FILL_INT); break;
+      case NC_USHORT: var.fills.push_back(NC_FILL_USHORT); break;
+      default: break;
+    }
+  }
+  std::vector<double> range = d::number_attribute(ncid, found.varid, "valid_range");
+  if (range.size() == 2) {
+    var.valid_min = range[0];
+    var.valid_max = range[1];
+  }
+  std::vector<double> vmin = d::number_attribute(ncid, found.varid, "valid_min");
+  std::vector<double> vmax = d::number_attribute(ncid, found.varid, "valid_max");
+  if (!vmin.empty()) var.valid_min = vmin[0];
+  if (!vmax.empty()) var.valid_max = vmax[0];
+  return var;
+}
+
+/// Read a 1-D coordinate variable as double (no unpacking).
+std::vector<double> coordinate_values(const NcFile& file, const std::string& name) {
+  int varid = d::find_var(file.id(), name);
+  if (varid < 0) return {};
+  return d::read_all_doubles(file.id(), varid, file.path());
+}
+
+bool same_values(const std::vector<double>& a, const std::vector<double>& b) {
+  if (a.size() != b.size()) return false;
+  for (std::size_t i = 0; i < a.size(); ++i)
+    if (std::abs(a[i] - b[i]) > 1e-6 * std::max(1.0, std::abs(a[i]))) return false;
+  return true;
+}
+
+}  // namespace
+
+const Segment& InputDataset::Impl::segment_of_time(std::size_t time_index, std::size_t& local) const {
+  for (const Segment& segment : segments)
+    if (time_index < segment.time_offset + segment.time_length) {
+      local = time_index - segment.time_offset;
+      return segment;
+    }
+  throw Error("time index " + std::to_string(time_index) + " outside the input");
+}
+
+namespace {
+
+/// Attach the grid roles of a variable's dimensions, checking it lies on the dataset's grid.
+void bind_to_grid(InputDataset::Impl& impl, VarRef& var, bool need_vertical) {
+  const NcFile& file = impl.files[var.file];
+  int vertical = 0;
+  var.roles = classify(file.id(), var.varid, var.shape, vertical);
+  var.grid_dim.assign(var.shape.names.size(), -1);
+  std::size_t horizontal_seen = 0;
+  const GridDescription& grid = impl.grid;
+  for (std::size_t i = 0; i < var.shape.names.size(); ++i) {
+    const std::string& name = var.shape.names[i];
+    const std::size_t length = var.shape.lengths[i];
+    if (var.roles[i] == DimRole::vertical) {
+      if (name != grid.vertical.name || length != grid.vertical.length)
+        throw InputError(file.path(), var.name,
+                         "the pressure dimension '" + grid.vertical.name + "' of length " +
+                             std::to_string(grid.vertical.length) + " (found '" + name + "' of length " +
+                             std::to_string(length) + ")");
+      continue;
+    }
+    bool found = false;
+    for (std::size_t h = 0; h < grid.horizontal.size(); ++h)
+      if (grid.horizontal[h].name == name) {
+        if (grid.horizontal[h].length != length)
+          throw InputError(file.path(), var.name,
+                           "the same grid as the other inputs (dimension '" + name + "' has length " +
+                               std::to_string(length) + ", expected " + std::to_string(grid.horizontal[h].length) + ")");
+        var.roles[i] = DimRole::horizontal;
+        var.grid_dim[i] = static_cast<int>(h);
+        ++horizontal_seen;
+        found = true;
+      }
+    if (found) continue;
+    for (std::size_t o = 0; o < grid.outer.size(); ++o)
+      if (grid.outer[o].name == name) {
+        if (!grid.outer[o].is_time && grid.outer[o].length != length)
+          throw InputError(file.path(), var.name,
+                           "dimension '" + name + "' of length " + std::to_string(grid.outer[o].length) +
+                               " like the other inputs (found " + std::to_string(length) + ")");
+        var.roles[i] = DimRole::outer;
+        var.grid_dim[i] = static_cast<int>(o);
+        found = true;
+      }
+    if (found) continue;
+    if (length == 1) {  // a degenerate extra dimension (e.g. height = 1) is read at index 0
+      var.roles[i] = DimRole::outer;
+      var.grid_dim[i] = -2;
+      continue;
+    }
+    throw InputError(file.path(), var.name,
+                     "the same grid as the other inputs (unexpected dimension '" + name + "')");
+  }
+  if (horizontal_seen != grid.horizontal.size())
+    throw InputError(file.path(), var.name, "the same horizontal grid as the other inputs (dimensions " +
+                                                grid.horizontal[0].name +
+                                                (grid.horizontal.size() > 1 ? ", " + grid.horizontal[1].name : "") + ")");
+  if (need_vertical && vertical != 1)
+    throw InputError(file.path(), var.name, "one pressure dimension");
+}
+
+/// Check that the horizontal coordinates of file b match those of the grid file.
+void check_same_coordinates(const InputDataset::Impl& impl, int file_index) {
+  if (file_index == impl.grid_file) return;
+  const NcFile& a = impl.files[impl.grid_file];
+  const NcFile& b = impl.files[file_index];
+  for (const Dimension& dim : impl.grid.horizontal) {
+    if (d::coordinate_var(a.id(), dim.name) < 0 || d::coordinate_var(b.id(), dim.name) < 0) continue;
+    if (!same_values(coordinate_values(a, dim.name), coordinate_values(b, dim.name)))
+      throw InputError(b.path(), dim.name, "the same grid as " + a.path() + " (coordinate values differ)");
+  }
+  if (!impl.vertical_coordinate.empty() && d::coordinate_var(b.id(), impl.vertical_coordinate) >= 0) {
+    std::vector<double> pa = coordinate_values(a, impl.vertical_coordinate);
+    std::vector<double> pb = coordinate_values(b, impl.vertical_coordinate);
+    std::string ua = d::text_attribute(a.id(), d::find_var(a.id(), impl.vertical_coordinate), "units");
+    std::string ub = d::text_attribute(b.id(), d::find_var(b.id(), impl.vertical_coordinate), "units");
+    d::UnitConverter(ua, "Pa").convert(pa.data(), pa.size());
+    d::UnitConverter(ub, "Pa").convert(pb.data(), pb.size());
+    if (!same_values(pa, pb))
+      throw InputError(b.path(), impl.vertical_coordinate, "the same pressure levels as " + a.path());
+  }
+}
+
+}  // namespace
+
+InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases)
+    : impl_(std::make_unique<Impl>()) {
+  Impl& impl = *impl_;
+  if (paths.empty()) throw UsageError("no input file given");
+  std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+  impl.paths = paths;
+  for (const std::string& path : paths) impl.files.push_back(NcFile::open_read(path));
+  const int nfiles = static_cast<int>(paths.size());
+
+  // 1. Which file has which quantity.
+  struct Found {
+    Candidate temp, humidity, height, surface_pressure;
+  };
+  std::vector<Found> found(nfiles);
+  for (int f = 0; f < nfiles; ++f) {
+    int ncid = impl.files[f].id();
+    found[f].temp = find_quantity(ncid, kTemperature, aliases, true);
+    found[f].humidity = find_quantity(ncid, kHumidity, aliases, true);
+    found[f].height = find_quantity(ncid, kHeight, aliases, true);
+    found[f].surface_pressure = find_quantity(ncid, kSurfacePressure, aliases, false);
+  }
+  std::string all_files;
+  for (const std::string& path : paths) all_files += (all_files.empty() ? "" : ", ") + path;
+  std::vector<int> temp_files;
+  for (int f = 0; f < nfiles; ++f)
+    if (found[f].temp.varid >= 0) temp_files.push_back(f);
+  if (temp_files.empty()) {
+    // Say why when a temperature exists but lacks a pressure dimension.
+    for (int f = 0; f < nfiles; ++f) {
+      Candidate flat = find_quantity(impl.files[f].id(), kTemperature, aliases, false);
+      if (flat.varid >= 0)
+        throw InputError(paths[f], d::var_name(impl.files[f].id(), flat.varid),
+                         "a pressure dimension (a coordinate variable with pressure units such as Pa, hPa or "
+                         "millibar); none found");
+    }
+    throw InputError(all_files, "", "air temperature: looked for " + looked_for(kTemperature, aliases, true));
+  }
+
+  // 2. The grid, from the first file with temperature.
+  impl.grid_file = temp_files[0];
+  {
+    const NcFile& file = impl.files[impl.grid_file];
+    const int ncid = file.id();
+    const int varid = found[impl.grid_file].temp.varid;
+    const std::string name = d::var_name(ncid, varid);
+    VarShape shape = d::var_shape(ncid, varid);
+    int vertical = 0;
+    std::vector<DimRole> roles = classify(ncid, varid, shape, vertical);
+    GridDescription& grid = impl.grid;
+    for (std::size_t i = 0; i < roles.size(); ++i) {
+      const std::string& dim = shape.names[i];
+      int coord = d::coordinate_var(ncid, dim);
+      if (roles[i] == DimRole::vertical) {
+        grid.vertical = {dim, shape.lengths[i]};
+        impl.vertical_coordinate = dim;
+        grid.pressure_pa = d::read_all_doubles(ncid, coord, file.path());
+        std::string units = d::text_attribute(ncid, coord, "units");
+        d::UnitConverter(units, "Pa").convert(grid.pressure_pa.data(), grid.pressure_pa.size());
+      } else if (roles[i] == DimRole::horizontal) {
+        grid.horizontal.push_back({dim, shape.lengths[i]});
+        impl.horizontal_coordinates.push_back(coord >= 0 ? dim : "");
+      } else {
+        grid.outer.push_back({dim, shape.lengths[i], is_time_dim(ncid, dim)});
+        impl.outer_coordinates.push_back(coord >= 0 ? dim : "");
+      }
+    }
+    if (grid.horizontal.empty() || grid.horizontal.size() > 2)
+      throw InputError(file.path(), name,
+                       "one or two horizontal dimensions (latitude/longitude, x/y with a grid_mapping, or cells); "
+                       "found " + std::to_string(grid.horizontal.size()));
+    std::size_t time_dims = 0;
+    for (std::size_t o = 0; o < grid.outer.size(); ++o)
+      if (grid.outer[o].is_time) {
+        impl.time_outer = static_cast<int>(o);
+        ++time_dims;
+      }
+    if (time_dims > 1) throw InputError(file.path(), name, "at most one time dimension");
+    for (const double p : grid.pressure_pa)
+      if (!(p > 0.0))
+        throw InputError(file.path(), impl.vertical_coordinate, "positive pressure levels");
+    grid.n_columns = 1;
+    for (const Dimension& dim : grid.horizontal) grid.n_columns *= dim.length;
+    find_lat_lon_aux(ncid, varid, shape, impl.lat_var, impl.lon_var);
+    if (!impl.lat_var.empty()) {
+      impl.aux_coordinates = {impl.lat_var, impl.lon_var};
+      if (impl.lon_var.empty()) impl.aux_coordinates.pop_back();
+    } else {
+      for (const Dimension& dim : grid.horizontal) {
+        int coord = d::coordinate_var(ncid, dim.name);
+        if (coord >= 0 && is_latitude(ncid, coord)) impl.lat_var = dim.name;
+        if (coord >= 0 && is_longitude(ncid, coord)) impl.lon_var = dim.name;
+      }
+    }
+    if (grid.horizontal.size() == 1)
+      grid.kind = HorizontalKind::unstructured;
+    else if (impl.lat_var == grid.horizontal[0].name || impl.lat_var == grid.horizontal[1].name)
+      grid.kind = HorizontalKind::latlon;
+    else
+      grid.kind = HorizontalKind::projected;
+    grid.grid_mapping = d::text_attribute(ncid, varid, "grid_mapping");
+    if (!grid.grid_mapping.empty() && d::find_var(ncid, grid.grid_mapping) < 0)
+      throw InputError(file.path(), name, "its grid_mapping variable '" + grid.grid_mapping + "' in the file");
+    grid.coordinates = d::text_attribute(ncid, varid, "coordinates");
+    if (grid.coordinates.empty() && !impl.aux_coordinates.empty()) {
+      grid.coordinates = impl.aux_coordinates[0];
+      if (impl.aux_coordinates.size() > 1) grid.coordinates += " " + impl.aux_coordinates[1];
+    }
+  }
+
+  // 3. Segments: one per file with temperature; other quantities from the same file,
+  //    or from as many separate files (paired in order), or from one file for all.
+  const std::size_t nseg = temp_files.size();
+  impl.segments.resize(nseg);
+  auto sources_of = [&](Candidate Found::*member) {
+    std::vector<int> files;
+    for (int f = 0; f < nfiles; ++f)
+      if ((found[f].*member).varid >= 0) files.push_back(f);
+    return files;
+  };
+  auto assign = [&](Candidate Found::*member, VarRef Segment::*slot, const char* what,
+                    const std::vector<Wanted>& wanted, bool need_vertical, bool required) {
+    std::vector<int> with = sources_of(member);
+    std::vector<int> separate;
+    for (int f : with)
+      if (std::find(temp_files.begin(), temp_files.end(), f) == temp_files.end()) separate.push_back(f);
+    for (std::size_t s = 0; s < nseg; ++s) {
+      int f = -1;
+      if ((found[temp_files[s]].*member).varid >= 0 && separate.empty())
+        f = temp_files[s];
+      else if (separate.size() == nseg)
+        f = separate[s];
+      else if (separate.size() == 1)
+        f = separate[0];
+      else if (!separate.empty() || with.size() != 0)
+        throw InputError(all_files, "", std::string(what) + " in every file with air temperature, or in one " +
+                                            "separate file per such file (found it in " + std::to_string(with.size()) +
+                                            " of " + std::to_string(nfiles) + " files)");
+      if (f < 0) {
+        if (required)
+          throw InputError(all_files, "", std::string(what) + ": looked for " + looked_for(wanted, aliases, need_vertical));
+        continue;
+      }
+      impl.segments[s].*slot = make_var(impl.files[f], f, found[f].*member);
+    }
+  };
+  for (std::size_t s = 0; s < nseg; ++s)
+    impl.segments[s].temp = make_var(impl.files[temp_files[s]], temp_files[s], found[temp_files[s]].temp);
+  assign(&Found::humidity, &Segment::humidity, "humidity", kHumidity, true, true);
+  assign(&Found::height, &Segment::height, "geopotential or geopotential height", kHeight, true, true);
+  assign(&Found::surface_pressure, &Segment::surface_pressure, "surface air pressure", kSurfacePressure, false, false);
+
+  // 4. Humidity kind must agree across segments.
+  const std::string humidity_quantity = impl.segments[0].humidity.quantity;
+  for (const Wanted& w : kHumidity)
+    if (humidity_quantity == w.standard_name) impl.humidity_kind = w.kind;
+  for (const Segment& segment : impl.segments)
+    if (segment.humidity.quantity != humidity_quantity)
+      throw InputError(paths[segment.humidity.file], segment.humidity.name,
+                       humidity_quantity + " like the other files (found " + segment.humidity.quantity + ")");
+
+  // 5. Time: concatenate along the time dimension of the temperature files.
+  GridDescription& grid = impl.grid;
+  if (nseg > 1 && impl.time_outer < 0)
+    throw InputError(paths[temp_files[1]], impl.segments[1].temp.name,
+                     "a time dimension: several files with air temperature are joined along time");
+  std::size_t offset = 0;
+  std::string first_time_units;
+  for (std::size_t s = 0; s < nseg; ++s) {
+    Segment& segment = impl.segments[s];
+    const NcFile& file = impl.files[segment.temp.file];
+    segment.time_offset = offset;
+    segment.time_length = 1;
+    if (impl.time_outer >= 0) {
+      const std::string& time_dim = grid.outer[impl.time_outer].name;
+      auto it = std::find(segment.temp.shape.names.begin(), segment.temp.shape.names.end(), time_dim);
+      if (it == segment.temp.shape.names.end())
+        throw InputError(file.path(), segment.temp.name, "a time dimension '" + time_dim + "' like " + paths[impl.grid_file]);
+      segment.time_length = segment.temp.shape.lengths[it - segment.temp.shape.names.begin()];
+      int coord = d::coordinate_var(file.id(), time_dim);
+      if (coord >= 0) {
+        std::vector<double> values = d::read_all_doubles(file.id(), coord, file.path());
+        std::string units = d::text_attribute(file.id(), coord, "units");
+        if (s == 0) {
+          first_time_units = units;
+          grid.time_units = units;
+          grid.time_calendar = d::text_attribute(file.id(), coord, "calendar");
+        } else if (units != first_time_units) {
+          try {
+            d::UnitConverter(units, first_time_units).convert(values.data(), values.size());
+          } catch (const std::invalid_argument& e) {
+            throw InputError(file.path(), time_dim, "time units convertible to '" + first_time_units + "' (" + e.what() + ")");
+          }
+        }
+        grid.time_values.insert(grid.time_values.end(), values.begin(), values.end());
+      }
+    }
+    offset += segment.time_length;
+  }
+  if (impl.time_outer >= 0) {
+    grid.outer[impl.time_outer].length = offset;
+    if (!grid.time_values.empty() && grid.time_values.size() != offset)
+      throw InputError(all_files, grid.outer[impl.time_outer].name, "a time coordinate in every file");
+    for (std::size_t i = 1; i < grid.time_values.size(); ++i)
+      if (!(grid.time_values[i] > grid.time_values[i - 1]))
+        throw InputError(all_files, grid.outer[impl.time_outer].name,
+                         "time steps in increasing order across the files (give the files in time order)");
+  }
+  grid.n_times = impl.time_outer >= 0 ? offset : 1;
+  grid.n_steps = 1;
+  for (const OuterDimension& dim : grid.outer) grid.n_steps *= dim.length;
+
+  // 6. Every variable on the same grid; coordinates equal across files.
+  std::set<int> used_files;
+  for (Segment& segment : impl.segments) {
+    bind_to_grid(impl, segment.temp, true);
+    bind_to_grid(impl, segment.humidity, true);
+    bind_to_grid(impl, segment.height, true);
+    if (segment.surface_pressure.present()) bind_to_grid(impl, segment.surface_pressure, false);
+    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure})
+      if (var->present()) used_files.insert(var->file);
+  }
+  for (int f : used_files) check_same_coordinates(impl, f);
+  for (int f = 0; f < nfiles; ++f)
+    if (!used_files.count(f))
+      throw InputError(paths[f], "", "at least one quantity of the analysis (air temperature, humidity, "
+                                     "geopotential, surface air pressure) on the grid of " + paths[impl.grid_file]);
+  // A separate file's time must match the segment it is paired with.
+  if (impl.time_outer >= 0) {
+    const std::string& time_dim = grid.outer[impl.time_outer].name;
+    for (Segment& segment : impl.segments)
+      for (VarRef* var : {&segment.humidity, &segment.height, &segment.surface_pressure}) {
+        if (!var->present() || var->file == segment.temp.file) continue;
+        auto it = std::find(var->shape.names.begin(), var->shape.names.end(), time_dim);
+        if (it == var->shape.names.end()) continue;  // static field: broadcast over time
+        std::size_t length = var->shape.lengths[it - var->shape.names.begin()];
+        if (length != segment.time_length)
+          throw InputError(paths[var->file], var->name,
+                           std::to_string(segment.time_length) + " time steps like " + paths[segment.temp.file] +
+                               " (found " + std::to_string(length) + ")");
+        const NcFile& a = impl.files[segment.temp.file];
+        const NcFile& b = impl.files[var->file];
+        if (d::coordinate_var(a.id(), time_dim) >= 0 && d::coordinate_var(b.id(), time_dim) >= 0 &&
+            d::text_attribute(a.id(), d::find_var(a.id(), time_dim), "units") ==
+                d::text_attribute(b.id(), d::find_var(b.id(), time_dim), "units") &&
+            !same_values(coordinate_values(a, time_dim), coordinate_values(b, time_dim)))
+          throw InputError(b.path(), var->name, "the same times as " + a.path());
+      }
+  }
+}
+
+InputDataset::~InputDataset() = default;
+
+const GridDescription& InputDataset::grid() const { return impl_->grid; }
+HumidityKind InputDataset::humidity_kind() const { return impl_->humidity_kind; }
+const std::vector<std::string>& InputDataset::paths() const { return impl_->paths; }
+
+std::vector<QuantitySource> InputDataset::sources() const {
+  std::vector<QuantitySource> out;
+  const Segment& segment = impl_->segments[0];
+  for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure})
+    if (var->present()) out.push_back({var->quantity, var->name, impl_->paths[var->file], var->units});
+  return out;
+}
+
+namespace {
+
+thread_local std::vector<double> t_raw;
+
+/// Read one variable's hyperslab and scatter it, converted to SI, into dst[column * column_stride + level].
+void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t local_time,
+              const std::vector<std::size_t>& outer_index, std::size_t row0, std::size_t nrows, std::size_t col0,
+              std::size_t ncols, std::size_t column_stride, double* dst, bool& any_valid) {
+  const std::size_t ndims = var.shape.names.size();
+  std::vector<size_t> start(ndims, 0), count(ndims, 1);
+  std::vector<std::size_t> dst_stride(ndims, 0);
+  const bool two_d = impl.grid.horizontal.size() == 2;
+  for (std::size_t i = 0; i < ndims; ++i) {
+    switch (var.roles[i]) {
+      case DimRole::vertical:
+        count[i] = var.shape.lengths[i];
+        dst_stride[i] = 1;
+        break;
+      case DimRole::horizontal:
+        if (two_d && var.grid_dim[i] == 0) {
+          start[i] = row0;
+          count[i] = nrows;
+          dst_stride[i] = ncols * column_stride;
+        } else {
+          start[i] = col0;
+          count[i] = ncols;
+          dst_stride[i] = column_stride;
+        }
+        break;
+      case DimRole::outer:
+        if (var.grid_dim[i] >= 0) {
+          const int o = var.grid_dim[i];
+          start[i] = (o == impl.time_outer) ? local_time : outer_index[o];
+        }
+        break;
+    }
+  }
+  std::size_t total = 1;
+  for (size_t c : count) total *= c;
+  t_raw.resize(total);
+  const NcFile& file = impl.files[var.file];
+  {
+    std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+    int status = nc_get_vara_double(file.id(), var.varid, start.data(), count.data(), t_raw.data());
+    if (status != NC_NOERR)
+      throw InputError(file.path(), var.name, std::string("readable data (") + nc_strerror(status) +
+                                                  "; is the file truncated?)");
+  }
+  // Odometer over all but the last dimension; the last one runs in the inner loop.
+  const double* raw = t_raw.data();
+  const std::size_t last = ndims - 1;
+  const std::size_t inner = count[last];
+  const std::size_t inner_stride = dst_stride[last];
+  std::vector<std::size_t> index(ndims, 0);
+  const double scale = var.scale, offset = var.offset, lo = var.valid_min, hi = var.valid_max;
+  const std::vector<double>& fills = var.fills;
+  bool valid = false;
+  std::size_t base = 0;
+  for (std::size_t done = 0; done < total; done += inner) {
+    double* out = dst + base;
+    for (std::size_t j = 0; j < inner; ++j) {
+      double v = raw[j];
+      bool missing = std::isnan(v) || v < lo || v > hi;
+      for (double fill : fills) missing = missing || v == fill;
+      double si = missing ? kNaN : v * scale + offset;
+      valid = valid || !missing;
+      out[j * inner_stride] = si;
+    }
+    raw += inner;
+    for (std::size_t k = last; k-- > 0;) {  // advance the odometer
+      base += dst_stride[k];
+      if (++index[k] < count[k]) break;
+      base -= dst_stride[k] * count[k];
+      index[k] = 0;
+    }
+  }
+  any_valid = any_valid || valid;
+}
+
+}  // namespace
+
+void InputDataset::read_block(std::size_t step, ColumnRange range, ColumnBlock& block) const {
+  const Impl& impl = *impl_;
+  const GridDescription& grid = impl.grid;
+  if (step >= grid.n_steps || range.begin + range.count > grid.n_columns)
+    throw Error("read_block: step or columns outside the grid");
+  std::vector<std::size_t> outer = step_indices(grid, step);
+  std::size_t time_index = impl.time_outer >= 0 ? outer[impl.time_outer] : 0;
+  std::size_t local = 0;
+  const Segment& segment = impl.segment_of_time(time_index, local);
+
+  std::size_t row0 = 0, nrows = 1, col0 = range.begin, ncols = range.count;
+  if (grid.horizontal.size() == 2) {
+    const std::size_t nx = grid.horizontal[1].length;
+    row0 = range.begin / nx;
+    col0 = range.begin % nx;
+    if (col0 + range.count <= nx) {
+      nrows = 1;
+      ncols = range.count;
+    } else if (col0 == 0 && range.count % nx == 0) {
+      nrows = range.count / nx;
+      ncols = nx;
+    } else {
+      throw Error("read_block: a block must be whole rows or part of one row");
+    }
+  }
+  const int nz = static_cast<int>(grid.vertical.length);
+  block.range = range;
+  block.n_levels = nz;
+  block.humidity_kind = impl.humidity_kind;
+  const std::size_t n = range.count * nz;
+  block.temp_k.resize(n);
+  block.humidity.resize(n);
+  block.height_m.resize(n);
+  bool any_ps = false;
+  block.any_temp = block.any_humidity = block.any_height = false;
+  read_var(impl, segment.temp, local, outer, row0, nrows, col0, ncols, nz, block.temp_k.data(), block.any_temp);
+  read_var(impl, segment.humidity, local, outer, row0, nrows, col0, ncols, nz, block.humidity.data(), block.any_humidity);
+  read_var(impl, segment.height, local, outer, row0, nrows, col0, ncols, nz, block.height_m.data(), block.any_height);
+  if (segment.surface_pressure.present()) {
+    block.surface_pressure_pa.resize(range.count);
+    read_var(impl, segment.surface_pressure, local, outer, row0, nrows, col0, ncols, 1,
+             block.surface_pressure_pa.data(), any_ps);
+  } else {
+    block.surface_pressure_pa.clear();
+  }
+}
+
+void InputDataset::throw_all_missing(std::size_t step, bool any_temp, bool any_humidity, bool any_height) const {
+  const Impl& impl = *impl_;
+  std::vector<std::size_t> outer = step_indices(impl.grid, step);
+  std::size_t time_index = impl.time_outer >= 0 ? outer[impl.time_outer] : 0;
+  std::size_t local = 0;
+  const Segment& segment = impl.segment_of_time(time_index, local);
+  const VarRef& var = !any_temp ? segment.temp : !any_humidity ? segment.humidity : segment.height;
+  (void)any_height;
+  std::string where = impl.time_outer >= 0 ? " at time index " + std::to_string(time_index) : "";
+  throw InputError(impl.paths[var.file], var.name, "some valid data" + where + " (every value is missing)");
+}
+
+void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<double>& lon_deg) const {
+  const Impl& impl = *impl_;
+  const GridDescription& grid = impl.grid;
+  const NcFile& file = impl.files[impl.grid_file];
+  if (impl.lat_var.empty() || impl.lon_var.empty())
+    throw InputError(file.path(), "", "latitude and longitude coordinates (units degrees_north/degrees_east)");
+  std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+  auto read = [&](const std::string& name, std::vector<double>& out) {
+    int varid = d::find_var(file.id(), name);
+    VarShape shape = d::var_shape(file.id(), varid);
+    std::vector<double> values = d::read_all_doubles(file.id(), varid, file.path());
+    out.assign(grid.n_columns, kNaN);
+    const std::size_t nx = grid.horizontal.size() == 2 ? grid.horizontal[1].length : grid.n_columns;
+    // Strides of the variable's dims in column order (row-major over grid.horizontal).
+    std::vector<std::size_t> col_stride(shape.names.size(), 0);
+    for (std::size_t i = 0; i < shape.names.size(); ++i)
+      for (std::size_t h = 0; h < grid.horizontal.size(); ++h)
+        if (shape.names[i] == grid.horizontal[h].name)
+          col_stride[i] = (grid.horizontal.size() == 2 && h == 0) ? nx : 1;
+    std::vector<std::size_t> index(shape.names.size(), 0);
+    for (std::size_t k = 0; k < values.size(); ++k) {
+      std::size_t rest = k, col = 0;
+      for (std::size_t i = shape.names.size(); i-- > 0;) {
+        index[i] = rest % shape.lengths[i];
+        rest /= shape.lengths[i];
+        col += index[i] * col_stride[i];
+      }
+      out[col] = values[k];
+    }
+    // A 1-D coordinate covers one horizontal dimension: spread it over the other.
+    if (shape.names.size() == 1 && grid.horizontal.size() == 2) {
+      bool is_rows = shape.names[0] == grid.horizontal[0].name;
+      for (std::size_t c = 0; c < grid.n_columns; ++c)
+        out[c] = values[is_rows ? c / nx : c % nx];
+    }
+  };
+  read(impl.lat_var, lat_deg);
+  read(impl.lon_var, lon_deg);
+}
+
+}  // namespace latentlift
