@@ -10,6 +10,8 @@
 #include <string>
 #include <vector>
 
+#include "latentlift/errors.hpp"
+
 namespace latentlift::climatology {
 
 // ---- grouping of valid times ------------------------------------------------
@@ -143,6 +145,8 @@ struct ClimatologyOptions {
   int threads = 0;            // OpenMP threads per rank (0: default)
   bool quiet = false;
   std::string command_line;   // recorded in the history attribute
+  std::string config_path;    // --config, for model inputs (the analysis is run)
+  std::vector<std::string> overrides;  // --set section.key=value, for model inputs
 };
 
 /// Summary of a run (on rank 0: totals over all ranks).
@@ -151,6 +155,18 @@ struct ClimatologySummary {
   long time_steps_total = 0;
   int ranks = 1;
   double seconds = 0.0;
+};
+
+/// Thrown on the ranks that did not fail themselves when another rank failed; the failing
+/// rank reports the error, these only end with its exit code.
+class OtherRankFailed : public Error {
+ public:
+  explicit OtherRankFailed(int exit_code)
+      : Error("another rank failed"), exit_code_(exit_code) {}
+  int exit_code() const { return exit_code_; }
+
+ private:
+  int exit_code_;
 };
 
 /// Run the climatology over the inputs (ranks of comm::world() share the time steps; rank 0

@@ -1,0 +1,300 @@
+// The climatology run: scan inputs, refuse duplicate valid times, share the time steps
+// among the ranks, accumulate (OpenMP over points), reduce to rank 0, merge with the
+// existing file on --update, write. Any rank's failure stops every rank before the
+// output is written.
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <map>
+#include <memory>
+#include <optional>
+
+#include "latentlift/climatology.hpp"
+#include "latentlift/comm.hpp"
+#include "latentlift/config.hpp"
+#include "latentlift/errors.hpp"
+#include "latentlift/parallel.hpp"
+#include "latentlift/pipeline.hpp"
+#include "stats/stats_netcdf.hpp"
+
+namespace latentlift::climatology {
+
+namespace {
+
+using detail::Grid;
+using detail::Settings;
+
+// One input file: an analyze output (read) or a pressure-level model input (analysed here).
+struct Source {
+  std::string path;
+  bool analysis_output = true;
+  Grid grid;
+  std::vector<std::int64_t> valid_times;
+  Settings settings;
+  detail::AnalysisInput analysis;  // when analysis_output
+};
+
+// One time step of one input.
+struct Item {
+  std::size_t source;
+  std::size_t time_index;
+  std::int64_t valid_time;
+};
+
+Grid grid_of(const GridDescription& g) {
+  Grid grid;
+  grid.points = g.n_columns;
+  for (const auto& d : g.horizontal) {
+    grid.dims.push_back(d.name);
+    grid.sizes.push_back(d.length);
+  }
+  grid.grid_mapping = g.grid_mapping;
+  grid.coordinates = g.coordinates;
+  return grid;
+}
+
+Source scan_model_input(const std::string& path, const RunConfig& config) {
+  Source s;
+  s.path = path;
+  s.analysis_output = false;
+  InputDataset input({path}, config.aliases);
+  const GridDescription& g = input.grid();
+  for (const auto& o : g.outer)
+    if (!o.is_time && o.length > 1)
+      throw InputError(path, o.name, "no outer dimension but time (one valid time per step for a climatology)");
+  if (g.time_values.empty())
+    throw InputError(path, "time", "a time coordinate (units '<unit> since <date>') giving the valid time of each step");
+  TimeUnits units;
+  try {
+    units = parse_time_units(g.time_units, g.time_calendar);
+  } catch (const std::invalid_argument& e) {
+    throw InputError(path, "time", e.what());
+  }
+  for (double v : g.time_values)
+    s.valid_times.push_back(static_cast<std::int64_t>(std::llround(v * units.seconds_per_unit)) + units.epoch_s);
+  s.grid = grid_of(g);
+  s.settings = detail::settings_from_toml(config_to_toml(config));
+  return s;
+}
+
+std::string describe_grid(const Grid& g) {
+  std::string out;
+  for (std::size_t i = 0; i < g.dims.size(); ++i) out += (i ? " x " : "") + g.dims[i] + "=" + std::to_string(g.sizes[i]);
+  return out;
+}
+
+void check_same_grid(const Grid& reference, const std::string& reference_file, const Source& s) {
+  if (reference.dims != s.grid.dims || reference.sizes != s.grid.sizes)
+    throw InputError(s.path, "", "the grid of " + reference_file + " (" + describe_grid(reference) + "), got " +
+                                     describe_grid(s.grid));
+}
+
+std::string settings_text(const Settings& settings) {
+  std::string out;
+  for (const auto& [k, v] : settings) out += (out.empty() ? "" : ", ") + k + "=" + v;
+  return out.empty() ? "(none recorded)" : out;
+}
+
+// Binomial-tree reduction of the accumulators to rank 0 (merge order fixed by the rank count).
+void reduce_to_root(comm::Communicator& c, Accumulator& acc) {
+  for (int step = 1; step < c.size(); step *= 2) {
+    if (c.rank() % (2 * step) == 0) {
+      if (c.rank() + step < c.size()) acc.merge(Accumulator::deserialize(c.recv_bytes(c.rank() + step)));
+    } else {
+      c.send_bytes(c.rank() - step, acc.serialize());
+      return;
+    }
+  }
+}
+
+// The outcome of one phase on this rank.
+struct Failure {
+  int code = 0;  // 0 ok, 1 runtime, 2 input/usage
+  std::string message;
+};
+
+template <class F>
+void guarded(Failure& failure, F&& body) {
+  if (failure.code) return;
+  try {
+    body();
+  } catch (const InputError& e) {
+    failure = {2, e.what()};
+  } catch (const UsageError& e) {
+    failure = {2, e.what()};
+  } catch (const std::exception& e) {
+    failure = {1, e.what()};
+  }
+}
+
+// Collective: when any rank failed, the lowest failing rank rethrows its error (prefixed with
+// its rank under MPI) and the others throw OtherRankFailed; nobody writes output.
+void agree(comm::Communicator& c, const Failure& failure) {
+  const int code = c.allreduce_max(failure.code);
+  if (code == 0) return;
+  const int first = c.size() - c.allreduce_max(failure.code ? c.size() - c.rank() : 0);
+  if (c.rank() != first) throw OtherRankFailed(code);
+  const std::string message =
+      c.size() > 1 ? "rank " + std::to_string(c.rank()) + " of " + std::to_string(c.size()) + ": " + failure.message
+                   : failure.message;
+  if (failure.code == 2) throw UsageError(message);  // maps to exit code 2 like InputError
+  throw Error(message);
+}
+
+}  // namespace
+
+ClimatologySummary run_climatology(const ClimatologyOptions& options) {
+  namespace fs = std::filesystem;
+  const auto started = std::chrono::steady_clock::now();
+  comm::Communicator& c = comm::world();
+  parallel::set_threads(options.threads);
+
+  Failure failure;
+  std::vector<Source> sources;
+  std::vector<Item> items;
+  std::optional<detail::StatsMetadata> existing;
+  detail::StatsMetadata meta;
+  RunConfig config;
+
+  // ---- phase 1 (every rank): options, inputs, times, duplicates ------------------------
+  guarded(failure, [&] {
+    if (options.inputs.empty()) throw UsageError("climatology: no input files");
+    if (options.output.empty()) throw UsageError("climatology: -o STATS.nc is required");
+    const bool exists = fs::exists(options.output);
+    if (exists && !options.update)
+      throw UsageError(options.output + ": exists; add --update to add the inputs to it, or remove it");
+    if (!exists && options.update)
+      throw UsageError(options.output + ": --update needs an existing climatology file");
+    meta.group_by = options.group_by;
+    if (options.update) {
+      existing = detail::read_stats_metadata(options.output);
+      if (options.group_given && existing->group_by != options.group_by)
+        throw UsageError(options.output + ": groups by " + to_string(existing->group_by) + ", not by " +
+                         to_string(options.group_by) + " (--group must match the file or be left out)");
+      meta.group_by = existing->group_by;
+    }
+    bool config_loaded = false;
+    for (const std::string& path : options.inputs) {
+      if (detail::is_analysis_output(path)) {
+        Source s;
+        s.path = path;
+        s.analysis = detail::scan_analysis_output(path);
+        s.grid = s.analysis.grid;
+        s.valid_times = s.analysis.valid_times;
+        s.settings = s.analysis.settings;
+        sources.push_back(std::move(s));
+      } else {
+        if (!config_loaded) {
+          config = load_config(options.config_path, options.overrides);
+          config_loaded = true;
+        }
+        sources.push_back(scan_model_input(path, config));
+      }
+    }
+    // one grid, one set of analysis settings, level statistics only when every input has them
+    const Grid& ref = existing ? existing->grid : sources.front().grid;
+    const std::string ref_file = existing ? options.output : sources.front().path;
+    const Settings& ref_settings = existing ? existing->settings : sources.front().settings;
+    const bool levels = existing ? existing->grid.levels > 0 : sources.front().grid.levels > 0;
+    for (const Source& s : sources) {
+      check_same_grid(ref, ref_file, s);
+      if (s.settings != ref_settings)
+        throw InputError(s.path, "", "the analysis settings of " + ref_file + " (" + settings_text(ref_settings) +
+                                         "), got " + settings_text(s.settings));
+      if ((s.grid.levels > 0) != levels || (levels && s.grid.levels != ref.levels))
+        throw InputError(s.path, "stability_class",
+                         levels ? "per-level stability classes on " + std::to_string(ref.levels) + " levels, as in " +
+                                      ref_file + " (analyze --level-fields)"
+                                : "no per-level fields, as " + ref_file + " has none (or all inputs with them)");
+    }
+    meta.grid = ref;
+    meta.settings = ref_settings;
+    // every time step once: no duplicates among the inputs nor with the file
+    std::map<std::int64_t, std::string> seen;
+    if (existing)
+      for (std::int64_t t : existing->valid_times) seen[t] = options.output + " (already counted)";
+    for (std::size_t s = 0; s < sources.size(); ++s)
+      for (std::size_t t = 0; t < sources[s].valid_times.size(); ++t) {
+        const std::int64_t vt = sources[s].valid_times[t];
+        auto [it, inserted] = seen.emplace(vt, sources[s].path + " (time index " + std::to_string(t) + ")");
+        if (!inserted)
+          throw InputError(sources[s].path, "time",
+                           "each valid time once; " + iso8601(vt) + " (time index " + std::to_string(t) +
+                               ") is also in " + it->second);
+        items.push_back({s, t, vt});
+      }
+    if (items.empty()) throw InputError(options.inputs.front(), "time", "at least one time step");
+  });
+  agree(c, failure);
+
+  // ---- phase 2 (every rank, its share): accumulate ------------------------------------
+  Accumulator acc(meta.group_by, meta.grid.points, static_cast<int>(meta.grid.levels));
+  const comm::Range mine = comm::partition(items.size(), c.rank(), c.size());
+  guarded(failure, [&] {
+    std::size_t i = mine.begin;
+    detail::StepBuffers buffers;
+    while (i < mine.end) {
+      const std::size_t s = items[i].source;
+      std::size_t j = i;
+      while (j < mine.end && items[j].source == s) ++j;  // this rank's run of steps of one input
+      const Source& src = sources[s];
+      if (src.analysis_output) {
+        detail::AnalysisReader reader(src.analysis, meta.grid.levels > 0);
+        for (std::size_t k = i; k < j; ++k) {
+          reader.read(items[k].time_index, buffers);
+          acc.add(buffers.view(items[k].valid_time));
+        }
+      } else {
+        InputDataset input({src.path}, config.aliases);
+        PipelineOptions po;
+        po.config = config;
+        po.threads = options.threads;
+        for (std::size_t k = i; k < j; ++k) po.time_indices.push_back(items[k].time_index);
+        analyze_in_memory(input, po, [&](std::size_t step, const FieldSet& fields) {
+          const std::size_t t = time_index_of_step(input.grid(), step);
+          for (int f = 0; f < kFieldCount; ++f) {
+            auto it = fields.real.find(field_specs()[f].name);
+            if (it == fields.real.end()) throw Error(std::string("pipeline did not deliver ") + field_specs()[f].name);
+            buffers.field[f].assign(it->second.begin(), it->second.end());
+          }
+          auto cls = fields.byte.find("latent_class");
+          if (cls == fields.byte.end()) throw Error("pipeline did not deliver latent_class");
+          buffers.latent_class = cls->second;
+          buffers.stability.clear();
+          acc.add(buffers.view(src.valid_times.at(t)));
+        });
+      }
+      i = j;
+    }
+  });
+  agree(c, failure);
+
+  // ---- phase 3: reduce to rank 0, merge with the file, write --------------------------
+  reduce_to_root(c, acc);
+  ClimatologySummary summary;
+  summary.ranks = c.size();
+  summary.time_steps_added = static_cast<long>(items.size());
+  if (c.rank() == 0) {
+    if (existing) {
+      Accumulator total = detail::read_stats_accumulator(options.output, *existing);
+      total.merge(acc);
+      acc = std::move(total);
+      meta.valid_times = existing->valid_times;
+      meta.input_files = existing->input_files;
+      meta.history = existing->history;
+    }
+    for (const Item& it : items) meta.valid_times.push_back(it.valid_time);
+    std::sort(meta.valid_times.begin(), meta.valid_times.end());
+    for (const std::string& path : options.inputs) meta.input_files.push_back(path);
+    if (!options.command_line.empty()) meta.history += (meta.history.empty() ? "" : "\n") + options.command_line;
+    const std::string template_path = existing ? options.output : sources.front().path;
+    detail::write_stats(options.output, meta, acc, template_path);
+    summary.time_steps_total = static_cast<long>(meta.valid_times.size());
+  }
+  summary.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
+  return summary;
+}
+
+}  // namespace latentlift::climatology
