@@ -18,7 +18,7 @@ double reference_follow_k(double temp_k, double from_pa, double to_pa);
 double reference_theta_w_k(double temp_k, double pressure_pa);
 
 /// Fast path: tables of the reference pseudo-adiabats in (theta_w, ln p), built once,
-/// with cubic (4x4 Lagrange) interpolation, and their inverses. Valid from 1150 to 50 hPa
+/// with cubic (4x4 Lagrange) interpolation, and their inverses. Valid from 1150 to 10 hPa
 /// and theta_w from -100 to +70 degC; within 0.02 K of the reference for theta_w from
 /// -40 to +40 degC and 1050 to 100 hPa (tests/thermo sweep). Immutable and thread-safe.
 class Table {
@@ -34,6 +34,11 @@ class Table {
   double theta_w_k(double temp_k, double ln_pressure_pa, double* dtheta_dt = nullptr) const;
   /// theta_w (K) of the pseudo-adiabat whose saturated virtual temperature at ln p equals tv_k.
   double theta_w_from_virtual_k(double tv_k, double ln_pressure_pa, double* dtheta_dtv = nullptr) const;
+
+  /// Both inverses at once (shares the ln p stencil): theta_w through temp_k, and through
+  /// saturated virtual temperature tv_k (with d(theta_w)/d(Tv) in *dtheta_dtv).
+  void theta_w_pair(double temp_k, double tv_k, double ln_pressure_pa, double* theta_from_t,
+                    double* theta_from_tv, double* dtheta_dtv) const;
 
   /// A pseudo-adiabat fixed once, for a run of look-ups along one parcel ascent.
   class Curve {
@@ -51,7 +56,7 @@ class Table {
   static constexpr double kThetaMinK = 173.15;   // -100 degC
   static constexpr double kThetaMaxK = 343.15;   // +70 degC
   static constexpr double kPressureMaxPa = 115000.0;
-  static constexpr double kPressureMinPa = 5000.0;
+  static constexpr double kPressureMinPa = 1000.0;
 
   Table();  // builds from the reference integrator; use instance()
 

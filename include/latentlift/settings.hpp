@@ -13,7 +13,7 @@ struct AnalysisSettings {
   double source_layer_pa = 30000.0;   // analysis.source_layer_hpa = 300
   double min_excess_k = 0.01;         // analysis.min_excess_k
   bool level_fields = false;          // --level-fields: also fill ColumnResult::levels
-  int cape_substeps = 8;              // sub-steps per layer for CAPE/CIN integration
+  int cape_substeps = 1;              // parabolic pieces per layer for the CAPE/CIN integrals
 };
 
 /// "virtual" / "temperature" as written in the config; throws std::invalid_argument otherwise.

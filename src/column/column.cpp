@@ -72,6 +72,26 @@ struct Quadratic {
     }
     return m;
   }
+  // Integral over [s0, s1] of the positive part of f (positive == true) or of -f where f < 0.
+  double signed_area(double s0, double s1, bool positive) const {
+    if (s1 <= s0) return 0.0;
+    double cuts[4] = {s0, 0, 0, 0};
+    int n = 1;
+    double r[2];
+    const int m = roots(0.0, s0, s1, r);
+    for (int i = 0; i < m; ++i) cuts[n++] = r[i];
+    cuts[n++] = s1;
+    double total = 0.0;
+    for (int i = 0; i + 1 < n; ++i) {
+      const double u0 = cuts[i], u1 = cuts[i + 1];
+      if (u1 <= u0) continue;
+      const double mid = at(0.5 * (u0 + u1));
+      if (positive ? mid <= 0 : mid >= 0) continue;
+      const double integral = a * (u1 - u0) + b / 2 * (u1 * u1 - u0 * u0) + c / 3 * (u1 * u1 * u1 - u0 * u0 * u0);
+      total += positive ? integral : -integral;
+    }
+    return total;
+  }
   // Roots of f(s) = y in [s0, s1], ascending; returns their count (0..2).
   int roots(double y, double s0, double s1, double out[2]) const {
     int n = 0;
@@ -167,7 +187,7 @@ struct ColumnAnalyzer::Impl {
 
   explicit Impl(const AnalysisSettings& s) : settings(s), virtual_mode(s.buoyancy == BuoyancyMode::virtual_temperature) {
     if (!(s.top_pressure_pa >= Table::kPressureMinPa && s.top_pressure_pa < Table::kPressureMaxPa))
-      throw std::invalid_argument("top pressure must lie between 50 and 1150 hPa");
+      throw std::invalid_argument("top pressure must lie between 10 and 1150 hPa");
     if (!(s.source_layer_pa >= 0)) throw std::invalid_argument("source layer depth must be >= 0");
     if (!(s.min_excess_k >= 0)) throw std::invalid_argument("min_excess_k must be >= 0");
     if (s.cape_substeps < 1) throw std::invalid_argument("cape_substeps must be >= 1");
@@ -223,10 +243,9 @@ struct ColumnAnalyzer::Impl {
     pc.lcl_t = std::min(thermo::lcl_temperature_k(lv.t, td), lv.t);
     pc.lcl_lnp = std::min(lv.lnp + std::log(pc.lcl_t / lv.t) / thermo::poisson_kappa(lv.r), lv.lnp);
     pc.lcl_p = std::exp(pc.lcl_lnp);
-    if (pc.lcl_p >= Table::kPressureMinPa)
-      pc.theta_w = table.theta_w_k(pc.lcl_t, pc.lcl_lnp);
-    else
-      pc.theta_w = pseudoadiabat::reference_theta_w_k(pc.lcl_t, pc.lcl_p);
+    // An LCL above the tables (10 hPa) belongs to stratospheric air whose theta_w lies far
+    // beyond the tabulated pseudo-adiabats: missing.
+    pc.theta_w = pc.lcl_p >= Table::kPressureMinPa ? table.theta_w_k(pc.lcl_t, pc.lcl_lnp) : kNaN;
     // The layer of the analysis column that holds the LCL.
     pc.lcl_seg = -1;
     if (k < n_an && pc.lcl_lnp >= levels[n_an - 1].lnp) {
@@ -258,26 +277,61 @@ struct ColumnAnalyzer::Impl {
   void compute_excess(Parcel& pc) const {
     if (pc.excess_done) return;
     pc.excess_done = true;
+    pc.excess = walk(pc, false).max_excess;
+  }
+
+  struct WalkResult {
+    double max_excess = -std::numeric_limits<double>::infinity();
+    double positive_area = 0.0;  // integral of positive buoyancy d(ln p) at or above the LCL, K
+    double negative_area = 0.0;  // integral of negative buoyancy from the source to the LFC, K (>= 0)
+  };
+
+  // Follow the parcel up to the analysis top in pieces (each layer split into cape_substeps,
+  // the LCL a node); buoyancy on each piece is the parabola through its ends and midpoint,
+  // whose maximum and positive/negative areas are exact. With integrals == false the walk
+  // starts at the LCL and gives the maximum excess only.
+  WalkResult walk(const Parcel& pc, bool integrals) const {
+    WalkResult out;
     const auto curve = table.curve(pc.theta_w);
-    auto excess_at = [&](int k, double s) {
-      const double lnp = lnp_at(k, s);
-      return (virtual_mode ? curve.virtual_temperature_k(lnp) : curve.temperature_k(lnp)) - env_buoyancy_temp(k, s);
+    const int substeps = integrals ? settings.cape_substeps : 1;
+    const double x_start = integrals ? levels[pc.level].lnp : pc.lcl_lnp;
+    const int k_start = integrals ? pc.level : pc.lcl_seg;
+    auto buoyancy = [&](int k, double x) {
+      const double s = std::clamp((levels[k].lnp - x) / (levels[k].lnp - levels[k + 1].lnp), 0.0, 1.0);
+      return parcel_buoyancy_temp(pc, curve, x) - env_buoyancy_temp(k, s);
     };
-    double best = -std::numeric_limits<double>::infinity();
-    double s0 = pc.lcl_s;
-    double f0 = excess_at(pc.lcl_seg, s0);
-    best = f0;
-    for (int k = pc.lcl_seg; k + 1 < n_an; ++k) {
-      if (k > pc.lcl_seg) s0 = 0.0;
-      const double sm = 0.5 * (s0 + 1.0);
-      const double fm = excess_at(k, sm);
-      const double f1 = excess_at(k, 1.0);
-      // Parabola through (s0, f0), (sm, fm), (1, f1), mapped to [0, 1] of the sub-interval.
-      const Quadratic q = Quadratic::through(f0, fm, f1);
-      best = std::max(best, q.max_on(0.0, 1.0));
-      f0 = f1;
+    auto piece = [&](int k, double xa, double xb, double& ba) {
+      const double bm = buoyancy(k, 0.5 * (xa + xb));
+      const double bb = buoyancy(k, xb);
+      const Quadratic q = Quadratic::through(ba, bm, bb);
+      const double width = xa - xb;
+      if (xa <= pc.lcl_lnp + 1e-12) {
+        out.max_excess = std::max(out.max_excess, q.max_on(0.0, 1.0));
+        if (integrals) out.positive_area += width * q.signed_area(0.0, 1.0, true);
+      }
+      if (integrals && xa > pc.lfc_lnp) {
+        const double u_end = xb >= pc.lfc_lnp ? 1.0 : (xa - pc.lfc_lnp) / width;
+        out.negative_area += width * q.signed_area(0.0, u_end, false);
+      }
+      ba = bb;
+    };
+    double xa = x_start;
+    double ba = buoyancy(k_start, xa);
+    for (int k = k_start; k + 1 < n_an; ++k) {
+      const double hi = levels[k].lnp, lo = levels[k + 1].lnp;
+      if (xa <= lo) continue;
+      const int n = std::max(1, static_cast<int>(std::ceil(substeps * (xa - lo) / (hi - lo) - 1e-9)));
+      for (int i = 1; i <= n; ++i) {
+        const double xb = i == n ? lo : xa - (xa - lo) / (n - i + 1);
+        if (pc.lcl_lnp < xa && pc.lcl_lnp > xb) {  // the LCL is a node of the walk
+          piece(k, xa, pc.lcl_lnp, ba);
+          xa = pc.lcl_lnp;
+        }
+        piece(k, xa, xb, ba);
+        xa = xb;
+      }
     }
-    pc.excess = best;
+    return out;
   }
 
   // Lowest point at or above the LCL where the parcel is buoyant (theta_w > sat).
@@ -321,65 +375,33 @@ struct ColumnAnalyzer::Impl {
     return pc.lfc_lnp;
   }
 
-  // Rd * integral of buoyancy (positive or negative part) d(ln p) from lnp_from up to lnp_to.
-  double integrate_buoyancy(const Parcel& pc, double lnp_from, double lnp_to, bool positive_part) const {
-    const auto curve = table.curve(pc.theta_w);
-    const int substeps = settings.cape_substeps;
-    double total = 0.0;
-    bool have_prev = false;
-    double prev_lnp = 0, prev_b = 0;
-    auto add_point = [&](double lnp, int k) {
-      const double s = (levels[k].lnp - lnp) / (levels[k].lnp - levels[k + 1].lnp);
-      const double b = parcel_buoyancy_temp(pc, curve, lnp) - env_buoyancy_temp(k, std::clamp(s, 0.0, 1.0));
-      if (have_prev) {
-        const double d = prev_lnp - lnp;  // > 0 going up
-        const double b0 = positive_part ? prev_b : -prev_b;
-        const double b1 = positive_part ? b : -b;
-        if (b0 >= 0 && b1 >= 0)
-          total += 0.5 * (b0 + b1) * d;
-        else if (b0 > 0 || b1 > 0) {
-          const double pos = std::max(b0, b1);
-          total += 0.5 * pos * pos / (std::fabs(b0) + std::fabs(b1)) * d;
-        }
-      }
-      have_prev = true;
-      prev_lnp = lnp;
-      prev_b = b;
-    };
-    for (int k = 0; k + 1 < n_an; ++k) {
-      const double hi = levels[k].lnp, lo = levels[k + 1].lnp;  // hi > lo
-      const double a = std::min(hi, lnp_from), b = std::max(lo, lnp_to);
-      if (a <= b) continue;
-      // Sub-steps of this layer inside [b, a], with the LCL as an extra node.
-      const int n = std::max(1, static_cast<int>(std::ceil(substeps * (a - b) / (hi - lo) - 1e-9)));
-      if (!have_prev) add_point(a, k);
-      for (int i = 1; i <= n; ++i) {
-        const double x = a - (a - b) * i / n;
-        const double x_prev = a - (a - b) * (i - 1) / n;
-        if (pc.lcl_lnp < x_prev && pc.lcl_lnp > x) add_point(pc.lcl_lnp, k);
-        add_point(x, k);
-      }
-    }
-    return thermo::kRd * total;
-  }
-
   ParcelAscent full_ascent(Parcel& pc) {
     ParcelAscent out{};
     out.source_pressure_pa = levels[pc.level].p;
     out.theta_w_k = pc.theta_w;
     out.lcl_pressure_pa = pc.lcl_p;
     out.lcl_temp_k = pc.lcl_t;
-    compute_excess(pc);
-    out.max_excess_k = pc.excess;
-    out.flagged = pc.flagged;
     out.lfc_pressure_pa = out.el_pressure_pa = out.cin_j_kg = kNaN;
     out.cape_j_kg = 0.0;
-    if (!pc.flagged) return out;
-    const double el_lnp = find_el(pc);
+    if (!pc.flagged) {
+      compute_excess(pc);
+      out.max_excess_k = pc.excess;
+      out.flagged = false;
+      return out;
+    }
+    // Positive area at or above the LCL is the area from the LFC to the EL: the LFC is the
+    // lowest buoyant point above the LCL and nothing above the EL is buoyant.
+    const WalkResult w = walk(pc, true);
+    if (!pc.excess_done) {
+      pc.excess = w.max_excess;
+      pc.excess_done = true;
+    }
+    out.max_excess_k = pc.excess;
+    out.flagged = true;
     out.lfc_pressure_pa = std::exp(pc.lfc_lnp);
-    out.el_pressure_pa = std::exp(el_lnp);
-    out.cape_j_kg = integrate_buoyancy(pc, pc.lfc_lnp, el_lnp, true);
-    out.cin_j_kg = integrate_buoyancy(pc, levels[pc.level].lnp, pc.lfc_lnp, false);
+    out.el_pressure_pa = std::exp(find_el(pc));
+    out.cape_j_kg = thermo::kRd * w.positive_area;
+    out.cin_j_kg = thermo::kRd * w.negative_area;
     return out;
   }
 
@@ -406,7 +428,10 @@ struct ColumnAnalyzer::Impl {
         });
     }
     const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
+    const double top = settings.top_pressure_pa;
     for (int i : order) {
+      // Without level fields only one level above the analysis top is needed (to interpolate the top).
+      if (!settings.level_fields && !levels.empty() && levels.back().p < top) break;
       const double pi = p[i], ti = in.temp_k[i], hi = in.humidity[i];
       if (!(pi > 0) || std::isnan(ti) || std::isnan(hi)) continue;
       if (has_surface && pi > in.surface_pressure_pa) continue;  // below ground
@@ -486,8 +511,11 @@ struct ColumnAnalyzer::Impl {
     for (int k = 0; k < n_an; ++k) {
       Level& lv = levels[k];
       double slope = 0;
-      lv.theta_w_star = table.theta_w_k(lv.t, lv.lnp, virtual_mode ? nullptr : &slope);
-      lv.sat = virtual_mode ? saturation_theta_w(lv.t, lv.r, lv.lnp, &slope) : lv.theta_w_star;
+      if (virtual_mode) {
+        table.theta_w_pair(lv.t, lv.tv, lv.lnp, &lv.theta_w_star, &lv.sat, &slope);
+      } else {
+        lv.theta_w_star = lv.sat = table.theta_w_k(lv.t, lv.lnp, &slope);
+      }
       lv.sat_eps = lv.sat + eps * slope;
     }
     segs.resize(static_cast<size_t>(std::max(n_an - 1, 0)));
@@ -613,6 +641,12 @@ struct ColumnAnalyzer::Impl {
     if (with_levels) fill_level_fields(res);
   }
 
+  // theta_w beyond the tables' range (stratospheric air, warmer than any tabulated
+  // pseudo-adiabat) is reported missing rather than extrapolated.
+  static double in_table_range(double theta_w) {
+    return theta_w >= Table::kThetaMinK && theta_w <= Table::kThetaMaxK ? theta_w : kNaN;
+  }
+
   void fill_level_fields(ColumnResult& res) {
     LevelFields& lf = res.levels;
     const double kappa_dry = thermo::kKappaDry;
@@ -624,9 +658,9 @@ struct ColumnAnalyzer::Impl {
       Parcel& pc = parcels[k];
       compute_excess(pc);
       lf.dew_point_k[i] = thermo::dew_point_k(lv.e);
-      lf.wet_bulb_potential_temperature_k[i] = pc.theta_w;
+      lf.wet_bulb_potential_temperature_k[i] = in_table_range(pc.theta_w);
       lf.wet_bulb_temperature_k[i] = std::min(lv.t, table.temperature_k(pc.theta_w, lv.lnp));
-      lf.saturation_theta_w_k[i] = k < n_an ? lv.theta_w_star : table.theta_w_k(lv.t, lv.lnp);
+      lf.saturation_theta_w_k[i] = in_table_range(k < n_an ? lv.theta_w_star : table.theta_w_k(lv.t, lv.lnp));
       lf.max_parcel_excess_k[i] = pc.excess;
       lf.latent_flag[i] = pc.flagged ? 1 : 0;
       if (prev_real >= 0) {

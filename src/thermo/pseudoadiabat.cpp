@@ -74,8 +74,9 @@ inline void cubic_derivative_weights(double t, double d[4]) {
 // First stencil node and fraction for coordinate x on a grid of n nodes.
 inline int stencil(double x, double x0, double dx, int n, double& t) {
   const double u = (x - x0) / dx;
-  int i = static_cast<int>(std::floor(u)) - 1;
-  i = std::clamp(i, 0, n - 4);
+  int i = static_cast<int>(u);  // floor without a library call (u may be negative)
+  if (u < i) --i;
+  i = std::clamp(i - 1, 0, n - 4);
   t = u - (i + 1);
   return i;
 }
@@ -195,26 +196,52 @@ double Table::interp(const std::vector<double>& values, const Grid& gx, double x
   double tx, ty;
   const int ix = stencil(x, gx.x0, gx.dx, gx.nx, tx);
   const int iy = stencil(y, lnp_.x0, lnp_.dx, lnp_.nx, ty);
-  double wx[4], wy[4];
-  cubic_weights(tx, wx);
+  double wy[4];
   cubic_weights(ty, wy);
-  const double* base = values.data() + static_cast<size_t>(iy) * gx.nx + ix;
-  double v = 0.0;
-  double rows[4];
-  for (int k = 0; k < 4; ++k) {
-    double col = 0.0;
-    for (int r = 0; r < 4; ++r) col += wy[r] * base[static_cast<size_t>(r) * gx.nx + k];
-    rows[k] = col;
-    v += wx[k] * col;
-  }
+  const size_t stride = static_cast<size_t>(gx.nx);
+  const double* r0 = values.data() + static_cast<size_t>(iy) * stride + ix;
+  const double* r1 = r0 + stride;
+  const double* r2 = r1 + stride;
+  const double* r3 = r2 + stride;
+  // Interpolate in ln p first (four columns), then along the other coordinate.
+  double col[4];
+  for (int k = 0; k < 4; ++k) col[k] = wy[0] * r0[k] + wy[1] * r1[k] + wy[2] * r2[k] + wy[3] * r3[k];
+  double wx[4];
+  cubic_weights(tx, wx);
+  const double v = wx[0] * col[0] + wx[1] * col[1] + wx[2] * col[2] + wx[3] * col[3];
   if (dvdx) {
     double dx[4];
     cubic_derivative_weights(tx, dx);
-    double d = 0.0;
-    for (int k = 0; k < 4; ++k) d += dx[k] * rows[k];
-    *dvdx = d / gx.dx;
+    *dvdx = (dx[0] * col[0] + dx[1] * col[1] + dx[2] * col[2] + dx[3] * col[3]) / gx.dx;
   }
   return v;
+}
+
+void Table::theta_w_pair(double temp_k, double tv_k, double ln_pressure_pa, double* theta_from_t,
+                         double* theta_from_tv, double* dtheta_dtv) const {
+  double ty;
+  const int iy = stencil(ln_pressure_pa, lnp_.x0, lnp_.dx, lnp_.nx, ty);
+  double wy[4];
+  cubic_weights(ty, wy);
+  const size_t stride = static_cast<size_t>(temp_.nx);  // temp_ and tv_ grids are the same
+  auto along = [&](const std::vector<double>& values, double x, double* slope) {
+    double tx;
+    const int ix = stencil(x, temp_.x0, temp_.dx, temp_.nx, tx);
+    const double* r0 = values.data() + static_cast<size_t>(iy) * stride + ix;
+    double col[4];
+    for (int k = 0; k < 4; ++k)
+      col[k] = wy[0] * r0[k] + wy[1] * r0[k + stride] + wy[2] * r0[k + 2 * stride] + wy[3] * r0[k + 3 * stride];
+    double wx[4];
+    cubic_weights(tx, wx);
+    if (slope) {
+      double dx[4];
+      cubic_derivative_weights(tx, dx);
+      *slope = (dx[0] * col[0] + dx[1] * col[1] + dx[2] * col[2] + dx[3] * col[3]) / temp_.dx;
+    }
+    return wx[0] * col[0] + wx[1] * col[1] + wx[2] * col[2] + wx[3] * col[3];
+  };
+  *theta_from_t = along(theta_of_t_, temp_k, nullptr);
+  *theta_from_tv = along(theta_of_tv_, tv_k, dtheta_dtv);
 }
 
 double Table::temperature_k(double theta_w_k, double ln_pressure_pa) const {
