@@ -474,6 +474,48 @@ def invented_columns(rng):
     return cols
 
 
+COARSE_HPA = [1000, 925, 850, 700, 500, 400, 300, 250, 200, 150, 100]
+
+
+def random_columns(rng, count):
+    """Seeded random profiles: varied lapse rates, an optional inversion, moist and dry layers,
+    surface pressure from 850 to 1030 hPa (values below ground extrapolated, as a model gives
+    them), standard or coarse levels, every humidity kind."""
+    kinds = ["specific_humidity", "relative_humidity", "dew_point", "mixing_ratio"]
+    cols = []
+    for n in range(count):
+        levels = COARSE_HPA if n % 4 == 3 else STANDARD_HPA
+        p = np.array(levels, float) * 100.0
+        psfc = rng.uniform(85000.0, 103000.0)
+        t_sfc = rng.uniform(262.0, 306.0)
+        p_break = rng.uniform(65000.0, 85000.0)
+        g_low, g_high = rng.uniform(4.0, 9.6), rng.uniform(5.0, 7.2)
+        t_trop = rng.uniform(195.0, 225.0)
+        x_low = RD * g_low / 1000.0 / G0
+        x_high = RD * g_high / 1000.0 / G0
+        t_break = t_sfc * (p_break / psfc) ** x_low
+        t = np.where(p >= p_break, t_sfc * (p / psfc) ** x_low, t_break * (p / p_break) ** x_high)
+        t = np.maximum(t, t_trop)
+        if rng.uniform() < 0.6:
+            p_inv, depth, jump = rng.uniform(60000.0, 95000.0), rng.uniform(2500.0, 7500.0), rng.uniform(0.5, 6.0)
+            t = t + jump * np.clip((p_inv - p) / depth, 0.0, 1.0) * (p > p_inv - 3 * depth)
+        t = t + rng.normal(0.0, 0.4, len(p))
+        rh = rng.uniform(0.4, 0.98) * (p / 1e5) ** rng.uniform(0.5, 5.0)
+        if rng.uniform() < 0.5:
+            p_moist = rng.uniform(50000.0, 90000.0)
+            rh = np.where(np.abs(p - p_moist) < 7500.0, rng.uniform(0.9, 1.0), rh)
+        rh = np.clip(rh + rng.normal(0.0, 0.03, len(p)), 0.03, 1.0)
+        e = rh * es_pa(t)
+        r = mixing_ratio(e, p)
+        z = heights_hypsometric(p, t, r, 0.0)
+        z = z - np.interp(math.log(psfc), np.log(p[::-1]), z[::-1])  # 0 m at the surface
+        kind = kinds[n % 4]
+        hum = {"specific_humidity": r / (1 + r), "mixing_ratio": r, "relative_humidity": rh,
+               "dew_point": dew_point_k(e)}[kind]
+        cols.append(Column("random_%02d" % n, "random", p, t, hum, kind, z, psfc))
+    return cols
+
+
 # ---- real soundings
 def geopotential_height(z_geometric_m):
     """Geopotential height (gpm) of geometric altitude with a spherical Earth, R = 6371 km (common practice)."""
@@ -591,13 +633,15 @@ def fmt(v):
     return "nan" if not math.isfinite(v) else repr(v)
 
 
-def write_output(path, cols, lcl_rows):
-    """Line-based text: 'column', 'level', 'result', 'levelresult' and 'lcl' records, space separated."""
+def write_output(path, cols, lcl_rows, adiabat_rows):
+    """Line-based text: 'lcl', 'pseudoadiabat', 'column', 'level', 'result', 'levelresult' records."""
     lines = ["# latentlift SciPy reference v1 (tests/reference/scipy_reference.py)",
              "settings top_pressure_pa %s source_layer_pa %s min_excess_k %s" %
              (fmt(TOP_PA), fmt(SOURCE_LAYER_PA), fmt(MIN_EXCESS_K))]
     for row in lcl_rows:
         lines.append("lcl " + " ".join(fmt(v) for v in row))
+    for row in adiabat_rows:       # theta_w_K pressure_Pa temperature_K
+        lines.append("pseudoadiabat " + " ".join(fmt(v) for v in row))
     for col in cols:
         psfc = col.psfc if col.psfc is not None else math.nan
         lines.append("column %s %s %s %d %s" % (col.name, col.source, col.kind, len(col.p), fmt(psfc)))
@@ -623,7 +667,7 @@ def main():
         return 2
     real_dir, out = sys.argv[1], sys.argv[2]
     rng = np.random.default_rng(20261202)
-    cols = invented_columns(rng) + arm_columns(real_dir) + ecmwf_columns(real_dir)
+    cols = invented_columns(rng) + random_columns(rng, 28) + arm_columns(real_dir) + ecmwf_columns(real_dir)
     lcl_rows = []
     for p_hpa in (1000.0, 900.0, 800.0):
         for tc in (-10.0, 0.0, 10.0, 20.0, 30.0, 40.0):
@@ -632,7 +676,14 @@ def main():
                 tl, pv = romps_lcl_temperature_k(p_hpa * 100.0, tk, rh)
                 # lcl T_K Td_K p_Pa rh T_LCL_romps
                 lcl_rows.append((tk, dew_point_k(pv), p_hpa * 100.0, rh, tl))
-    write_output(out, cols, lcl_rows)
+    # Pseudo-adiabats: theta_w from -40 to +40 degC, 1050 to 100 hPa (METHODS fast-path range).
+    thetas = np.arange(-40.0, 40.01, 2.5) + T0
+    pressures = np.array([1050, 1000, 950, 900, 850, 800, 750, 700, 600, 500, 400, 300, 250, 200,
+                          150, 100], float) * 100.0
+    th, pp = np.meshgrid(thetas, pressures, indexing="ij")
+    pa = Pseudoadiabats(th.ravel(), np.full(th.size, math.log(P1000)), np.log(pp.ravel()))
+    adiabat_rows = list(zip(th.ravel(), pp.ravel(), pa.end))
+    write_output(out, cols, lcl_rows, adiabat_rows)
     return 0
 
 

@@ -25,6 +25,7 @@
 #include <vector>
 
 #include "latentlift/column.hpp"
+#include "latentlift/pseudoadiabat.hpp"
 #include "latentlift/settings.hpp"
 #include "latentlift/thermo.hpp"
 #include "support/test_support.hpp"
@@ -72,10 +73,15 @@ struct LclRow {
   double temp_k, dew_point_k, pressure_pa, rh, romps_t_lcl_k;
 };
 
+struct AdiabatRow {
+  double theta_w_k, pressure_pa, temp_k;
+};
+
 struct Reference {
   bool available = false;
   std::string why_not;
   std::vector<LclRow> lcl;
+  std::vector<AdiabatRow> adiabats;
   std::vector<ColumnRef> columns;
 };
 
@@ -120,6 +126,10 @@ Reference load_reference() {
       ls >> a >> b >> c >> d >> e;
       row = {parse_number(a), parse_number(b), parse_number(c), parse_number(d), parse_number(e)};
       ref.lcl.push_back(row);
+    } else if (tag == "pseudoadiabat") {
+      std::string a, b, c;
+      ls >> a >> b >> c;
+      ref.adiabats.push_back({parse_number(a), parse_number(b), parse_number(c)});
     } else if (tag == "column") {
       ref.columns.emplace_back();
       col = &ref.columns.back();
@@ -232,6 +242,40 @@ TEST(ScipyReference, BoltonLclTemperatureAgreesWithRompsExactLcl) {
     where << "T=" << row.temp_k << " K RH=" << row.rh << " p=" << row.pressure_pa << " Pa";
     worst.add(t_l - row.romps_t_lcl_k, where.str());
     EXPECT_NEAR(t_l, row.romps_t_lcl_k, kLclTolK) << where.str();
+  }
+}
+
+TEST(ScipyReference, ReferencePseudoadiabatsAgreeWithSolveIvp) {
+  // Two accurate integrations of the same ODE (METHODS): the kernel's Dormand-Prince and
+  // SciPy's DOP853 at rtol 1e-10 agree to a millikelvin.
+  REQUIRE_REFERENCE();
+  ASSERT_FALSE(reference().adiabats.empty());
+  Worst worst("reference pseudo-adiabat temperature (K)");
+  for (const AdiabatRow& row : reference().adiabats) {
+    const double t = pseudoadiabat::reference_temperature_k(row.theta_w_k, row.pressure_pa);
+    std::ostringstream where;
+    where << "theta_w=" << row.theta_w_k << " K p=" << row.pressure_pa << " Pa";
+    worst.add(t - row.temp_k, where.str());
+    EXPECT_NEAR(t, row.temp_k, 1e-3) << where.str();
+  }
+}
+
+TEST(ScipyReference, FastPseudoadiabatTablesAgreeWithSolveIvpWithinTwoHundredthsKelvin) {
+  // METHODS: the fast path within 0.02 K of an accurate integration, theta_w -40..+40 degC,
+  // 1050..100 hPa; both directions (temperature of an adiabat, and the adiabat through a point).
+  REQUIRE_REFERENCE();
+  const auto& table = pseudoadiabat::Table::instance();
+  Worst w_t("table temperature (K)"), w_th("table theta_w (K)");
+  for (const AdiabatRow& row : reference().adiabats) {
+    std::ostringstream where;
+    where << "theta_w=" << row.theta_w_k << " K p=" << row.pressure_pa << " Pa";
+    const double lnp = std::log(row.pressure_pa);
+    const double t = table.temperature_k(row.theta_w_k, lnp);
+    const double th = table.theta_w_k(row.temp_k, lnp);
+    w_t.add(t - row.temp_k, where.str());
+    w_th.add(th - row.theta_w_k, where.str());
+    EXPECT_NEAR(t, row.temp_k, 0.02) << where.str();
+    EXPECT_NEAR(th, row.theta_w_k, 0.02) << where.str();
   }
 }
 
