@@ -1,0 +1,79 @@
+// Internal: a small RAII layer over netCDF-C for the gis module (reading analyze and
+// reproject outputs, writing map grids). No physics.
+#pragma once
+
+#include <netcdf.h>
+
+#include <cmath>
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "latentlift/crs.hpp"
+
+namespace latentlift::gis::detail {
+
+/// Throws latentlift::Error naming the file, variable and action when status is not NC_NOERR.
+void check(int status, const std::string& file, const std::string& variable, const std::string& action);
+
+/// An open NetCDF dataset; closed by the destructor (close() reports errors).
+class NcFile {
+ public:
+  /// Opens for reading; InputError when the file is missing or not NetCDF.
+  static NcFile open(const std::string& path);
+  /// Creates a NetCDF-4 file (clobbering).
+  static NcFile create(const std::string& path);
+  NcFile(NcFile&& other) noexcept;
+  NcFile& operator=(NcFile&&) = delete;
+  NcFile(const NcFile&) = delete;
+  ~NcFile();
+  void close();
+  int id() const { return id_; }
+  const std::string& path() const { return path_; }
+
+ private:
+  NcFile(int id, std::string path) : id_(id), path_(std::move(path)) {}
+  int id_ = -1;
+  std::string path_;
+};
+
+struct VarInfo {
+  int id = -1;
+  std::string name;
+  nc_type type = NC_NAT;
+  std::vector<int> dim_ids;
+  std::vector<std::string> dim_names;
+  std::vector<std::size_t> shape;
+};
+
+VarInfo var_info(const NcFile& file, int varid);
+std::vector<VarInfo> all_variables(const NcFile& file);
+/// The variable called name, or nullopt.
+std::optional<VarInfo> find_variable(const NcFile& file, const std::string& name);
+
+/// Attributes of a variable (NC_GLOBAL for the file): text as text, numbers as doubles.
+AttributeList read_attributes(const NcFile& file, int varid);
+std::optional<std::string> text_attribute(const NcFile& file, int varid, const std::string& name);
+std::optional<std::vector<double>> number_attribute(const NcFile& file, int varid, const std::string& name);
+/// Writes text attributes as NC_CHAR and numbers as NC_DOUBLE.
+void write_attributes(NcFile& file, int varid, const AttributeList& attributes);
+void write_text(NcFile& file, int varid, const std::string& name, const std::string& value);
+
+/// The whole variable as doubles (netCDF converts the type; no unpacking).
+std::vector<double> read_doubles(const NcFile& file, const VarInfo& var);
+/// A hyperslab as doubles.
+void read_slab(const NcFile& file, const VarInfo& var, const std::vector<std::size_t>& start,
+               const std::vector<std::size_t>& count, double* out);
+
+/// How to turn stored numbers into values: packing and missing-value markers (CF 1.8 sec. 2.5, 8.1).
+struct Unpacking {
+  double scale = 1.0, offset = 0.0;
+  std::vector<double> missing;  // stored values that mean missing (_FillValue, missing_value, default fill)
+  double valid_min = -HUGE_VAL, valid_max = HUGE_VAL;
+  /// The physical value, or NaN when missing.
+  double operator()(double stored) const;
+};
+Unpacking unpacking_of(const NcFile& file, const VarInfo& var);
+
+}  // namespace latentlift::gis::detail
