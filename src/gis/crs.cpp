@@ -413,8 +413,9 @@ std::shared_ptr<const Crs::Impl> describe(PJ_CONTEXT* context, PJ* input, const 
     impl->cf = cf_projection(context, operation.get(), method_code);
   }
   if (!impl->cf.empty()) append_figure(context, pj, impl->cf);
-  impl->cf.push_back({impl->geographic && !impl->rotated ? "geographic_crs_name" : "projected_crs_name",
-                      impl->name});
+  if (!impl->name.empty() && impl->name != "unknown" && impl->name != "unnamed")
+    impl->cf.push_back({impl->geographic && !impl->rotated ? "geographic_crs_name" : "projected_crs_name",
+                        impl->name});
   return impl;
 }
 

@@ -75,6 +75,19 @@ std::optional<VarInfo> find_variable(const NcFile& file, const std::string& name
 }
 
 namespace {
+// A non-owning view of an open dataset (id and path), for the id-based overloads.
+struct RawFile {
+  int ncid;
+  const std::string& name;
+  int id() const { return ncid; }
+  const std::string& path() const { return name; }
+};
+std::string var_name(const RawFile& file, int varid) {
+  if (varid == NC_GLOBAL) return "";
+  char name[NC_MAX_NAME + 1] = {0};
+  nc_inq_varname(file.id(), varid, name);
+  return name;
+}
 std::string var_name(const NcFile& file, int varid) {
   if (varid == NC_GLOBAL) return "";
   char name[NC_MAX_NAME + 1] = {0};
@@ -83,7 +96,8 @@ std::string var_name(const NcFile& file, int varid) {
 }
 }  // namespace
 
-AttributeList read_attributes(const NcFile& file, int varid) {
+AttributeList read_attributes(int ncid, const std::string& path, int varid) {
+  const RawFile file{ncid, path};
   int count = 0;
   if (varid == NC_GLOBAL)
     check(nc_inq_natts(file.id(), &count), file.path(), "", "attributes");
@@ -117,6 +131,10 @@ AttributeList read_attributes(const NcFile& file, int varid) {
   return out;
 }
 
+AttributeList read_attributes(const NcFile& file, int varid) {
+  return read_attributes(file.id(), file.path(), varid);
+}
+
 std::optional<std::string> text_attribute(const NcFile& file, int varid, const std::string& name) {
   nc_type type = NC_NAT;
   std::size_t length = 0;
@@ -141,16 +159,22 @@ void write_text(NcFile& file, int varid, const std::string& name, const std::str
         var_name(file, varid), "cannot write attribute " + name);
 }
 
-void write_attributes(NcFile& file, int varid, const AttributeList& attributes) {
+void write_attributes(int ncid, const std::string& path, int varid, const AttributeList& attributes) {
+  const RawFile file{ncid, path};
   for (const auto& attribute : attributes) {
     if (const auto* text = std::get_if<std::string>(&attribute.value)) {
-      write_text(file, varid, attribute.name, *text);
+      check(nc_put_att_text(file.id(), varid, attribute.name.c_str(), text->size(), text->c_str()), file.path(),
+            var_name(file, varid), "cannot write attribute " + attribute.name);
     } else {
       const auto& values = std::get<std::vector<double>>(attribute.value);
       check(nc_put_att_double(file.id(), varid, attribute.name.c_str(), NC_DOUBLE, values.size(), values.data()),
             file.path(), var_name(file, varid), "cannot write attribute " + attribute.name);
     }
   }
+}
+
+void write_attributes(NcFile& file, int varid, const AttributeList& attributes) {
+  write_attributes(file.id(), file.path(), varid, attributes);
 }
 
 std::vector<double> read_doubles(const NcFile& file, const VarInfo& var) {

@@ -54,10 +54,12 @@ std::optional<VarInfo> find_variable(const NcFile& file, const std::string& name
 
 /// Attributes of a variable (NC_GLOBAL for the file): text as text, numbers as doubles.
 AttributeList read_attributes(const NcFile& file, int varid);
+AttributeList read_attributes(int ncid, const std::string& path, int varid);
 std::optional<std::string> text_attribute(const NcFile& file, int varid, const std::string& name);
 std::optional<std::vector<double>> number_attribute(const NcFile& file, int varid, const std::string& name);
 /// Writes text attributes as NC_CHAR and numbers as NC_DOUBLE.
 void write_attributes(NcFile& file, int varid, const AttributeList& attributes);
+void write_attributes(int ncid, const std::string& path, int varid, const AttributeList& attributes);
 void write_text(NcFile& file, int varid, const std::string& name, const std::string& value);
 
 /// The whole variable as doubles (netCDF converts the type; no unpacking).

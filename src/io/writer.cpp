@@ -7,6 +7,7 @@
 #include <ctime>
 #include <filesystem>
 
+#include "gis/netcdf_crs.hpp"  // grid_mapping completion
 #include "io/dataset_impl.hpp"
 #include "latentlift/errors.hpp"
 
@@ -133,13 +134,14 @@ const std::vector<std::string>& byte_level_field_names() {
 
 void write_grid_mapping(int ncid_in, int ncid_out, const std::string& grid_mapping_name,
                         const std::string& input_file) {
-  // Copied verbatim for now; a CRS completion (crs_wkt from PROJ) hooks in here.
+  // Copied verbatim, then completed by the gis module (crs_wkt and CF parameters from PROJ).
   int in_var = d::find_var(ncid_in, grid_mapping_name);
   if (in_var < 0) throw InputError(input_file, grid_mapping_name, "the grid_mapping variable named by the data");
   int out_var = -1;
   d::check(nc_def_var(ncid_out, grid_mapping_name.c_str(), NC_INT, 0, nullptr, &out_var), input_file,
            "defining " + grid_mapping_name);
   copy_attributes(ncid_in, in_var, ncid_out, out_var, input_file, {"_FillValue"});
+  gis::complete_grid_mapping_variable(ncid_in, in_var, ncid_out, out_var, input_file, grid_mapping_name);
 }
 
 struct OutputWriter::Impl {
