@@ -1,0 +1,77 @@
+// Throughput of the column kernel: columns per second per thread (items/s), for
+// 37-level ERA5-like columns (1000 to 1 hPa) drawn in turn from a pool of 4096
+// varied, physically plausible columns (tests/column/random_columns.hpp: lapse
+// rates, inversions, humidity profiles, all four humidity kinds, either level
+// order, some below-ground levels and missing values), in both buoyancy modes,
+// with and without level fields. One ColumnAnalyzer per thread, as on the grid.
+// Rates are per CPU second (the machine may be shared: CPU time, not wall time).
+// Target (issue 2): >= 300,000 columns/s per core, virtual mode, 2-D outputs only.
+#include <benchmark/benchmark.h>
+
+#include <random>
+#include <vector>
+
+#include "column/random_columns.hpp"
+#include "latentlift/column.hpp"
+#include "latentlift/pseudoadiabat.hpp"
+#include "latentlift/settings.hpp"
+
+namespace {
+
+using latentlift::AnalysisSettings;
+using latentlift::BuoyancyMode;
+using latentlift::ColumnAnalyzer;
+using latentlift::ColumnResult;
+using latentlift::test::OwnedColumn;
+
+const std::vector<OwnedColumn>& pool(int levels_case) {
+  static const std::vector<OwnedColumn> full = [] {
+    std::mt19937 rng(424242u);
+    std::vector<OwnedColumn> out;
+    for (int i = 0; i < 4096; ++i) out.push_back(latentlift::test::random_column(rng, latentlift::test::era5_levels_hpa()));
+    return out;
+  }();
+  static const std::vector<OwnedColumn> to100 = [] {
+    std::mt19937 rng(434343u);
+    std::vector<OwnedColumn> out;
+    for (int i = 0; i < 4096; ++i) out.push_back(latentlift::test::random_column(rng, latentlift::test::era5_levels_to_100_hpa()));
+    return out;
+  }();
+  return levels_case == 37 ? full : to100;
+}
+
+// args: 0 = buoyancy (0 virtual, 1 temperature), 1 = level fields (0/1), 2 = levels (37 or 27)
+void BM_AnalyzeColumn(benchmark::State& state) {
+  AnalysisSettings s;
+  s.buoyancy = state.range(0) == 0 ? BuoyancyMode::virtual_temperature : BuoyancyMode::temperature;
+  s.level_fields = state.range(1) != 0;
+  const auto& columns = pool(static_cast<int>(state.range(2)));
+  latentlift::pseudoadiabat::Table::instance();  // build the table outside the timing
+  ColumnAnalyzer analyzer(s);
+  ColumnResult result;
+  size_t i = static_cast<size_t>(state.thread_index()) * 97;  // threads start at different columns
+  for (auto _ : state) {
+    analyzer.analyze(columns[i % columns.size()].view(), result);
+    benchmark::DoNotOptimize(result.mu_cape_j_kg);
+    benchmark::ClobberMemory();
+    ++i;
+  }
+  state.SetItemsProcessed(state.iterations());
+  state.counters["columns_per_s"] = benchmark::Counter(static_cast<double>(state.iterations()),
+                                                       benchmark::Counter::kIsRate);
+  state.SetLabel(std::string(latentlift::to_string(s.buoyancy)) + (s.level_fields ? " +level fields" : " 2-D") +
+                 ", " + std::to_string(state.range(2)) + " levels");
+}
+
+BENCHMARK(BM_AnalyzeColumn)
+    ->ArgNames({"temperature_mode", "level_fields", "levels"})
+    ->Args({0, 0, 37})
+    ->Args({0, 1, 37})
+    ->Args({1, 0, 37})
+    ->Args({1, 1, 37})
+    ->Args({0, 0, 27})
+    ->Unit(benchmark::kNanosecond);
+
+}  // namespace
+
+BENCHMARK_MAIN();

@@ -1,0 +1,42 @@
+#!/usr/bin/env bash
+# Build the column-kernel benchmark (Release) and run it: columns per second per
+# CPU core for 37-level ERA5-like columns, both buoyancy modes, with and without
+# level fields. Target (issue 2): >= 300,000 columns/s per core, virtual mode, 2-D.
+# Usage: scripts/bench_kernel.sh [build-dir] [extra Google Benchmark options...]
+#        (default build dir: build-bench; e.g. --benchmark_min_time=2)
+set -euo pipefail
+here=$(cd "$(dirname "$0")/.." && pwd)
+build=${1:-"$here/build-bench"}
+shift $(( $# > 0 ? 1 : 0 ))
+target_cols_per_s=300000
+
+cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release -DLATENTLIFT_BUILD_BENCH=ON >/dev/null
+cmake --build "$build" -j 2 --target bench_column >/dev/null
+bin="$build/bench/bench_column"
+[ -x "$bin" ] || { echo "bench_kernel: $bin not built (is Google Benchmark, libbenchmark-dev, installed?)" >&2; exit 1; }
+
+json="$build/bench_column.json"
+"$bin" --benchmark_min_time=1 --benchmark_out="$json" --benchmark_out_format=json "$@"
+
+/usr/bin/python3 - "$json" "$target_cols_per_s" <<'PY'
+import json, sys
+data = json.load(open(sys.argv[1]))
+target = float(sys.argv[2])
+ctx = data["context"]
+print()
+print(f"summary ({ctx.get('num_cpus')} CPUs at {ctx.get('mhz_per_cpu')} MHz, "
+      f"load average {', '.join(f'{x:.1f}' for x in ctx.get('load_avg', []))}):")
+print(f"  {'case':<40} {'columns/s per core':>20} {'us/column':>10}")
+for b in data["benchmarks"]:
+    rate = b.get("items_per_second", 0.0)
+    print(f"  {b.get('label', b['name']):<40} {rate:>20,.0f} {1e6 / rate if rate else float('nan'):>10.2f}")
+main = [b for b in data["benchmarks"] if b.get("label", "").startswith("virtual 2-D, 37")]
+if main:
+    rate = main[0]["items_per_second"]
+    verdict = "meets" if rate >= target else "MISSES"
+    print(f"virtual mode, 2-D outputs, 37 levels: {rate:,.0f} columns/s per core "
+          f"({verdict} the target of {target:,.0f})")
+if ctx.get("load_avg") and ctx["load_avg"][0] > ctx.get("num_cpus", 1):
+    print("note: the machine was loaded while measuring; rates are per CPU second but "
+          "shared caches still slow them down")
+PY
