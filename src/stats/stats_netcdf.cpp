@@ -465,8 +465,12 @@ void AnalysisReader::read(size_t t, StepBuffers& out) {
   auto to_class = [&](const Impl::Var& v, double raw, int max_code) -> std::int8_t {
     if (m.is_fill(v, raw) || raw < 0) return -1;
     if (raw != std::floor(raw) || raw > max_code)
-      throw InputError(m.input.path, v.name, "flag values 0 to " + std::to_string(max_code) + " or the fill value, got " +
-                                                 std::to_string(raw));
+    {
+      char got[32];
+      std::snprintf(got, sizeof got, "%g", raw);
+      throw InputError(m.input.path, v.name,
+                       "flag values 0 to " + std::to_string(max_code) + " or the fill value, got " + got);
+    }
     return static_cast<std::int8_t>(raw);
   };
   m.read_slab(m.latent_class, t);
