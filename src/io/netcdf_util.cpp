@@ -2,6 +2,7 @@
 
 #include <netcdf.h>
 
+#include <filesystem>
 #include <utility>
 
 #include "latentlift/errors.hpp"
@@ -17,6 +18,36 @@ void check(int status, const std::string& file, const std::string& what) {
   if (status != NC_NOERR) throw Error(file + ": " + what + ": " + nc_strerror(status));
 }
 
+namespace {
+
+/// Classic formats (CDF-1/2/5) read past the end of a truncated file without an error, so
+/// compare the file size with the bytes its variables need (a lower bound: header not counted).
+void check_complete(int ncid, const std::string& path) {
+  int format = 0;
+  if (nc_inq_format(ncid, &format) != NC_NOERR) return;
+  if (format != NC_FORMAT_CLASSIC && format != NC_FORMAT_64BIT_OFFSET && format != NC_FORMAT_CDF5) return;
+  int nvars = 0, unlimited = -1;
+  nc_inq_nvars(ncid, &nvars);
+  nc_inq_unlimdim(ncid, &unlimited);
+  unsigned long long needed = 0;
+  for (int v = 0; v < nvars; ++v) {
+    VarShape shape = var_shape(ncid, v);
+    size_t type_size = 0;
+    nc_inq_type(ncid, var_type(ncid, v), nullptr, &type_size);
+    unsigned long long bytes = type_size;
+    for (size_t length : shape.lengths) bytes *= length;
+    if (shape.dimids.empty() || shape.dimids[0] != unlimited) bytes = (bytes + 3) / 4 * 4;  // padded to 4 bytes
+    needed += bytes;
+  }
+  std::error_code ec;
+  unsigned long long size = std::filesystem::file_size(path, ec);
+  if (!ec && size < needed)
+    throw InputError(path, "", "a complete NetCDF file (its variables need at least " + std::to_string(needed) +
+                                   " bytes, the file has " + std::to_string(size) + "; truncated?)");
+}
+
+}  // namespace
+
 NcFile NcFile::open_read(const std::string& path) {
   NcFile file;
   int status = nc_open(path.c_str(), NC_NOWRITE, &file.id_);
@@ -25,6 +56,7 @@ NcFile NcFile::open_read(const std::string& path) {
     throw InputError(path, "", std::string("expected a readable NetCDF file (") + nc_strerror(status) + ")");
   }
   file.path_ = path;
+  check_complete(file.id_, path);
   return file;
 }
 
