@@ -2,10 +2,10 @@
 # The README's first command: install the dependencies, build latentlift, analyse the
 # Vessaline Coast sample grid (an invented scenario, see sample_grids/README.md) and
 # show where the output is and how to look at one column.
-# Usage: scripts/demo.sh            (output: out/demo_analysis.nc)
+# Usage: scripts/demo.sh            (output: out/demo_analysis.nc; LATENTLIFT_BUILD overrides build/)
 set -euo pipefail
 here=$(cd "$(dirname "$0")/.." && pwd)
-build="$here/build"
+build=${LATENTLIFT_BUILD:-"$here/build"}
 input="$here/sample_grids/vessaline_coast_lcc.nc"
 output="$here/out/demo_analysis.nc"
 

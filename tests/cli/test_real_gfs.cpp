@@ -25,7 +25,7 @@ std::string gfs_dir() { return real_data_dir() + "/ncep-nwp-pressure-levels/deri
 struct GfsRun {
   bool skipped = false;
   std::string output;
-  Field mu_cape, latent_class, tangent_theta_w, ncep_cape;
+  Field mu_cape, latent_class, tangent_theta_w, ncep_cape, orography;
   std::vector<double> latitude;  // per output row
 };
 
@@ -45,6 +45,7 @@ GfsRun analyze_gfs(const std::string& stem) {
   run.latent_class = read_field(out, "latent_class");
   run.tangent_theta_w = read_field(out, "tangent_theta_w");
   run.ncep_cape = read_field(in, "cape");
+  run.orography = read_field(in, "orog");
   // the output keeps the input's grid: same dimensions (time, latitude, longitude) and sizes
   EXPECT_EQ(run.mu_cape.dims, run.ncep_cape.dims);
   EXPECT_EQ(run.mu_cape.lens, run.ncep_cape.lens);
@@ -80,25 +81,50 @@ void expect_plausible(const GfsRun& run, double polar_lat_min, double polar_lat_
   ASSERT_GT(big, 10u);
   EXPECT_GE(big_ok, static_cast<size_t>(0.85 * big)) << big_ok << " of " << big << " high-CAPE columns";
 
-  // the largest CAPE is of the order of NCEP's largest (a few thousand J/kg), not absurd
+  // the typical and the largest CAPE are of the order of NCEP's (MU vs surface-based parcels)
+  std::vector<double> ours, ncep;
   double max_ours = 0, max_ncep = 0;
   for (size_t k = 0; k < n; ++k) {
     if (!std::isnan(run.mu_cape.values[k])) max_ours = std::max(max_ours, run.mu_cape.values[k]);
     if (!std::isnan(run.ncep_cape.values[k])) max_ncep = std::max(max_ncep, run.ncep_cape.values[k]);
+    if (run.ncep_cape.values[k] >= 1000.0) {
+      ours.push_back(run.mu_cape.values[k]);
+      ncep.push_back(run.ncep_cape.values[k]);
+    }
   }
+  auto median = [](std::vector<double> v) {
+    std::nth_element(v.begin(), v.begin() + v.size() / 2, v.end());
+    return v[v.size() / 2];
+  };
+  EXPECT_NEAR(median(ours), median(ncep), 0.3 * median(ncep));
   EXPECT_GT(max_ours, 0.5 * max_ncep);
-  EXPECT_LT(max_ours, 3.0 * max_ncep);
+  EXPECT_LT(max_ours, 2.0 * max_ncep);
 
-  // no latent instability in winter polar air
+  // winter polar air: at most weak, rare latent instability (shallow convection where Arctic air
+  // crosses open water is real: NCEP's own CAPE reaches ~100-250 J/kg there)
   size_t polar = 0, polar_latent = 0;
+  double polar_max = 0;
   for (size_t k = 0; k < n; ++k) {
     double lat = latitude_of(run, k);
     if (lat < polar_lat_min || lat > polar_lat_max) continue;
     ++polar;
-    if (run.latent_class.values[k] >= 1.0 || run.mu_cape.values[k] > 10.0) ++polar_latent;
+    if (run.latent_class.values[k] >= 1.0) ++polar_latent;
+    if (!std::isnan(run.mu_cape.values[k])) polar_max = std::max(polar_max, run.mu_cape.values[k]);
   }
   ASSERT_GT(polar, 100u);
-  EXPECT_LE(polar_latent, static_cast<size_t>(0.02 * polar)) << polar_latent << " of " << polar << " polar columns";
+  EXPECT_LE(polar_latent, static_cast<size_t>(0.04 * polar)) << polar_latent << " of " << polar << " polar columns";
+  EXPECT_LT(polar_max, 300.0);
+
+  // the ice sheets (poleward of 60 degrees, ground above 1500 m): no latent instability worth the name
+  size_t ice = 0, ice_latent = 0;
+  for (size_t k = 0; k < n; ++k) {
+    if (std::fabs(latitude_of(run, k)) < 60.0 || !(run.orography.values[k] > 1500.0)) continue;
+    ++ice;
+    if (run.latent_class.values[k] >= 1.0) ++ice_latent;
+    EXPECT_LE(run.mu_cape.values[k], 25.0) << "ice-sheet column " << k;
+  }
+  ASSERT_GT(ice, 100u);
+  EXPECT_LE(ice_latent, static_cast<size_t>(0.01 * ice)) << ice_latent << " of " << ice << " ice-sheet columns";
 }
 
 TEST(RealGfs, January2011ForecastAnalysesWithDefaultsAndIsPlausible) {
@@ -112,7 +138,7 @@ TEST(RealGfs, October2011ForecastAnalysesWithDefaultsAndIsPlausible) {
   GfsRun run = analyze_gfs("gfs_2p5deg_20111008_00z_f072");
   if (run.skipped) GTEST_SKIP() << "shared real-data folder absent: " << gfs_dir();
   ASSERT_FALSE(HasFailure());
-  expect_plausible(run, -90.0, -70.0);  // valid 11 October: Antarctic late winter
+  expect_plausible(run, -90.0, -65.0);  // valid 11 October: Antarctic late winter
 }
 
 }  // namespace
