@@ -31,7 +31,7 @@ import sys
 
 import numpy as np
 from scipy.integrate import solve_ivp
-from scipy.optimize import brentq, minimize_scalar
+from scipy.optimize import brentq
 from scipy.special import lambertw
 
 # ---- constants (METHODS "Constants"; Bolton 1980)
@@ -260,7 +260,8 @@ def analyse(col, mode):
     def fine_grid(bp, n=33):
         if len(bp) < 2:
             return np.array(bp, float)
-        return np.concatenate([np.linspace(x0, x1, n) for x0, x1 in zip(bp[:-1], bp[1:])])
+        parts = [np.linspace(x0, x1, n) for x0, x1 in zip(bp[:-1], bp[1:])]
+        return np.concatenate([parts[0]] + [q[1:] for q in parts[1:]])   # shared ends once
 
     gl_x, gl_w = np.polynomial.legendre.leggauss(8)
 
@@ -268,24 +269,29 @@ def analyse(col, mode):
         res = dict(max_excess=math.nan, flag=0, lfc=math.nan, el=math.nan, cape=0.0, cin=math.nan)
         if not ascending[k]:
             return res
-        # Maximum excess from the LCL (included) to the top, continuous: dense samples on
-        # every smooth piece, then a bounded Brent refinement around the best sample.
-        xs = fine_grid(pieces(k, x_top, lnp_l[k]))
-        vals = buoy(k, xs)
+        # Buoyancy on dense samples of every smooth piece from the source to the top.
+        x_l = lnp_l[k]
+        xs_all = fine_grid(pieces(k, x_top, lnp[k]))
+        vals_all = buoy(k, xs_all)
+        # Maximum excess from the LCL (included) to the top, continuous: the best sample at
+        # or above the LCL, then a zoom around it.
+        above = xs_all <= x_l
+        xs, vals = xs_all[above], vals_all[above]
         j = int(np.argmax(vals))
         best = float(vals[j])
-        if 0 < j < len(xs) - 1:
-            lo, hi = min(xs[j + 1], xs[j - 1]), max(xs[j + 1], xs[j - 1])
-            opt = minimize_scalar(lambda x: -buoy1(k, x), bounds=(lo, hi), method="bounded",
-                                  options={"xatol": 1e-10})
-            best = max(best, -float(opt.fun))
+        lo, hi = xs[min(j + 1, len(xs) - 1)], xs[max(j - 1, 0)]
+        for _ in range(4):                     # each round shrinks the bracket 8-fold
+            zs = np.linspace(lo, hi, 17)
+            zv = buoy(k, zs)
+            i = int(np.argmax(zv))
+            best = max(best, float(zv[i]))
+            lo, hi = zs[max(i - 1, 0)], zs[min(i + 1, len(zs) - 1)]
         res["max_excess"] = best
         if not best > MIN_EXCESS_K:
             return res
         res["flag"] = 1
         # Zero crossings of the buoyancy from the source to the top.
-        xs = fine_grid(pieces(k, x_top, lnp[k]))
-        vals = buoy(k, xs)
+        xs, vals = xs_all, vals_all
         crossings = []        # (x, upward): upward = not positive below, positive above
         for j in range(len(xs) - 1):
             v0, v1 = vals[j], vals[j + 1]
@@ -299,7 +305,6 @@ def analyse(col, mode):
                 else:
                     xc = brentq(lambda x: buoy1(k, x), xs[j + 1], xs[j], xtol=1e-13)
                 crossings.append((xc, v1 > 0.0))
-        x_l = lnp_l[k]
         if buoy1(k, x_l) > 0.0:
             x_lfc = x_l
         else:
@@ -315,18 +320,21 @@ def analyse(col, mode):
 
         # CAPE (LFC..EL, positive part) and CIN (source..LFC, negative part): 8-point
         # Gauss-Legendre on pieces where the integrand is smooth and of one sign.
-        def integrate(x_lo, x_hi, sign):
+        def nodes_of(x_lo, x_hi):
+            if not x_lo < x_hi:
+                return np.zeros(0), np.zeros(0)
             pts = set(pieces(k, x_lo, x_hi)) | {xc for xc, _ in crossings if x_lo < xc < x_hi}
             pts = np.array(sorted(pts))
             half = 0.5 * np.diff(pts)
             mid = 0.5 * (pts[1:] + pts[:-1])
-            nodes = (mid[:, None] + half[:, None] * gl_x[None, :]).ravel()
-            vals = buoy(k, nodes).reshape(len(mid), len(gl_x))
-            vals = np.maximum(vals, 0.0) if sign > 0 else np.minimum(vals, 0.0)
-            return RD * float(np.sum(half * (vals @ gl_w)))
+            return (mid[:, None] + half[:, None] * gl_x[None, :]).ravel(), np.repeat(half, len(gl_x)) * np.tile(gl_w, len(half))
 
-        res["cape"] = integrate(x_el, x_lfc, +1) if x_el < x_lfc else 0.0
-        res["cin"] = abs(integrate(x_lfc, lnp[k], -1)) if x_lfc < lnp[k] else 0.0
+        n_cape, w_cape = nodes_of(x_el, x_lfc)
+        n_cin, w_cin = nodes_of(x_lfc, lnp[k])
+        b = buoy(k, np.concatenate([n_cape, n_cin]))
+        b_cape, b_cin = b[:len(n_cape)], b[len(n_cape):]
+        res["cape"] = RD * float(np.dot(w_cape, np.maximum(b_cape, 0.0)))
+        res["cin"] = RD * float(np.dot(w_cin, -np.minimum(b_cin, 0.0)))
         return res
 
     asc = [ascent(k) for k in range(m)]
