@@ -1,0 +1,104 @@
+// Colour scales computed from CIELAB (CIE 1976) and sRGB (IEC 61966-2-1) formulas.
+#include "gis/colour_scale.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+namespace latentlift::gis::detail {
+
+namespace {
+
+constexpr double kPi = 3.14159265358979323846;
+// D65 reference white (CIE 15:2004).
+constexpr double kXn = 0.95047, kYn = 1.0, kZn = 1.08883;
+
+double lab_f_inverse(double t) {
+  constexpr double d = 6.0 / 29.0;
+  return t > d ? t * t * t : 3.0 * d * d * (t - 4.0 / 29.0);
+}
+double lab_f(double t) {
+  constexpr double d = 6.0 / 29.0;
+  return t > d * d * d ? std::cbrt(t) : t / (3.0 * d * d) + 4.0 / 29.0;
+}
+double gamma_encode(double c) { return c <= 0.0031308 ? 12.92 * c : 1.055 * std::pow(c, 1.0 / 2.4) - 0.055; }
+double gamma_decode(double c) { return c <= 0.04045 ? c / 12.92 : std::pow((c + 0.055) / 1.055, 2.4); }
+
+// Linear sRGB of a CIELAB colour; false when outside the sRGB gamut.
+bool lab_to_linear_rgb(double L, double a, double b, double rgb[3]) {
+  double fy = (L + 16.0) / 116.0, fx = fy + a / 500.0, fz = fy - b / 200.0;
+  double X = kXn * lab_f_inverse(fx), Y = kYn * lab_f_inverse(fy), Z = kZn * lab_f_inverse(fz);
+  rgb[0] = 3.2406 * X - 1.5372 * Y - 0.4986 * Z;
+  rgb[1] = -0.9689 * X + 1.8758 * Y + 0.0415 * Z;
+  rgb[2] = 0.0557 * X - 0.2040 * Y + 1.0570 * Z;
+  for (int k = 0; k < 3; ++k)
+    if (rgb[k] < -1e-9 || rgb[k] > 1.0 + 1e-9) return false;
+  return true;
+}
+
+std::uint8_t to_byte(double c) { return static_cast<std::uint8_t>(std::lround(std::clamp(c, 0.0, 1.0) * 255.0)); }
+
+}  // namespace
+
+Rgb sequential_colour(double t) {
+  t = std::clamp(t, 0.0, 1.0);
+  double L = 20.0 + 72.0 * t, hue = (285.0 - 190.0 * t) * kPi / 180.0, chroma = 38.0 + 40.0 * t;
+  double rgb[3];
+  while (!lab_to_linear_rgb(L, chroma * std::cos(hue), chroma * std::sin(hue), rgb) && chroma > 0.0)
+    chroma -= 0.25;  // keep lightness and hue, give up chroma to stay in gamut
+  return {to_byte(gamma_encode(rgb[0])), to_byte(gamma_encode(rgb[1])), to_byte(gamma_encode(rgb[2]))};
+}
+
+std::vector<Rgb> sequential_steps(int n) {
+  std::vector<Rgb> out;
+  for (int k = 0; k < n; ++k) out.push_back(sequential_colour((k + 0.5) / n));
+  return out;
+}
+
+Rgb category_colour(int k) {
+  // Chosen for latentlift's class fields: pale blue-grey (none), amber, deep red, then distinct hues.
+  static const Rgb palette[] = {{190, 210, 228}, {246, 168, 70},  {196, 32, 48},  {60, 140, 90},
+                                {120, 90, 170},  {40, 120, 190},  {220, 110, 170}, {150, 110, 40},
+                                {90, 90, 90},    {20, 170, 170}};
+  return palette[((k % 10) + 10) % 10];
+}
+
+std::array<double, 3> srgb_to_lab(Rgb colour) {
+  double r = gamma_decode(colour[0] / 255.0), g = gamma_decode(colour[1] / 255.0), b = gamma_decode(colour[2] / 255.0);
+  double X = 0.4124 * r + 0.3576 * g + 0.1805 * b;
+  double Y = 0.2126 * r + 0.7152 * g + 0.0722 * b;
+  double Z = 0.0193 * r + 0.1192 * g + 0.9505 * b;
+  double fx = lab_f(X / kXn), fy = lab_f(Y / kYn), fz = lab_f(Z / kZn);
+  return {116.0 * fy - 16.0, 500.0 * (fx - fy), 200.0 * (fy - fz)};
+}
+
+int ColourBins::bin_of(double value) const {
+  int k = static_cast<int>(std::floor((value - low) / step));
+  return std::clamp(k, 0, count - 1);
+}
+
+ColourBins nice_bins(double min, double max, int max_bins) {
+  if (!(max > min)) {
+    double half = std::max(std::fabs(min) * 0.05, 0.5);
+    min -= half;
+    max += half;
+  }
+  double raw = (max - min) / max_bins;
+  double power = std::pow(10.0, std::floor(std::log10(raw)));
+  double step = power * 10.0;
+  for (double m : {1.0, 2.0, 2.5, 5.0, 10.0})
+    if (m * power >= raw * (1 - 1e-12)) {
+      step = m * power;
+      break;
+    }
+  ColourBins bins;
+  for (;;) {
+    bins.step = step;
+    bins.low = std::floor(min / step) * step;
+    bins.count = std::max(1, static_cast<int>(std::ceil((max - bins.low) / step - 1e-9)));
+    if (bins.count <= max_bins) break;
+    step *= 2.0;  // floor() of the low edge can add one bin too many
+  }
+  return bins;
+}
+
+}  // namespace latentlift::gis::detail
