@@ -28,7 +28,7 @@ InputAliases default_aliases() {
           {"specific_humidity", {"q", "Q", "hus", "SPFH", "shum"}},
           {"relative_humidity", {"r", "R", "hur", "RH", "rh", "rhum"}},
           {"dew_point_temperature", {"td", "Td", "DPT", "dpt", "dewpt"}},
-          {"humidity_mixing_ratio", {"mr", "w", "MIXR", "qv", "QVAPOR"}},
+          {"humidity_mixing_ratio", {"mr", "MIXR", "qv", "QVAPOR"}},
           {"geopotential", {"z", "Z", "phi", "geopotential"}},
           {"geopotential_height", {"gh", "zg", "HGT", "hgt", "geopotential_height"}},
           {"surface_air_pressure", {"sp", "ps", "PRES", "PSFC", "surface_pressure"}}};
