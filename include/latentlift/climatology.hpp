@@ -157,21 +157,10 @@ struct ClimatologySummary {
   double seconds = 0.0;
 };
 
-/// Thrown on the ranks that did not fail themselves when another rank failed; the failing
-/// rank reports the error, these only end with its exit code.
-class OtherRankFailed : public Error {
- public:
-  explicit OtherRankFailed(int exit_code)
-      : Error("another rank failed"), exit_code_(exit_code) {}
-  int exit_code() const { return exit_code_; }
-
- private:
-  int exit_code_;
-};
-
 /// Run the climatology over the inputs (ranks of comm::world() share the time steps; rank 0
 /// writes output via a temporary file and rename). Throws InputError / UsageError / Error;
-/// under MPI every rank throws when any rank failed, and no output is written.
+/// when any rank failed, that rank throws its error, the others comm::RankFailed, and no
+/// output is written.
 ClimatologySummary run_climatology(const ClimatologyOptions& options);
 
 }  // namespace latentlift::climatology

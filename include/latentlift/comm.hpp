@@ -5,8 +5,11 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <vector>
+
+#include "latentlift/errors.hpp"
 
 namespace latentlift::comm {
 
@@ -51,5 +54,32 @@ Range partition(std::size_t total, int rank, int size);
 /// zero-padded time index (4 digits), else "_t%04d" is inserted before the extension
 /// (OUT.nc -> OUT_t0003.nc).
 std::string rank_output_name(const std::string& pattern, std::size_t time_index);
+
+/// Thrown on the ranks that did not fail themselves when another rank failed; the failing
+/// rank reports the error, these only end with its exit code.
+class RankFailed : public Error {
+ public:
+  explicit RankFailed(int exit_code) : Error("another rank failed"), exit_code_(exit_code) {}
+  int exit_code() const { return exit_code_; }
+
+ private:
+  int exit_code_;
+};
+
+/// Collective error check. code: 0 ok, 1 runtime failure, 2 bad input or usage. When any rank
+/// has code != 0, the lowest failing rank throws its message (UsageError for 2, Error for 1;
+/// prefixed "rank r of n: " when size() > 1) and every other rank throws RankFailed.
+void agree(Communicator& comm, int code, const std::string& message);
+
+/// Run body on this rank and return {code, message} of the exception it threw (InputError and
+/// UsageError -> 2, any other std::exception -> 1), or {0, ""}.
+std::pair<int, std::string> capture(const std::function<void()>& body);
+
+/// `analyze` under mpirun: time indices 0..n_times-1 are shared among the ranks in contiguous
+/// blocks; work(time_index, output) writes one file per time step, named
+/// rank_output_name(pattern, time_index). When any rank fails, every rank removes the files it
+/// wrote in this call and agree() reports. Returns the number of files written by all ranks.
+std::size_t distributed_over_times(Communicator& comm, std::size_t n_times, const std::string& pattern,
+                                   const std::function<void(std::size_t time_index, const std::string& output)>& work);
 
 }  // namespace latentlift::comm

@@ -62,7 +62,7 @@ int run(const ClimatologyArgs& args) {
                   args.output.c_str(), summary.time_steps_added, summary.time_steps_total, summary.ranks,
                   parallel::max_threads(), summary.seconds,
                   summary.seconds > 0 ? summary.time_steps_added / summary.seconds : 0.0);
-  } catch (const climatology::OtherRankFailed& e) {
+  } catch (const comm::RankFailed& e) {
     return e.exit_code();  // the failing rank printed the reason
   }
   return 0;

@@ -109,40 +109,6 @@ void reduce_to_root(comm::Communicator& c, Accumulator& acc) {
   }
 }
 
-// The outcome of one phase on this rank.
-struct Failure {
-  int code = 0;  // 0 ok, 1 runtime, 2 input/usage
-  std::string message;
-};
-
-template <class F>
-void guarded(Failure& failure, F&& body) {
-  if (failure.code) return;
-  try {
-    body();
-  } catch (const InputError& e) {
-    failure = {2, e.what()};
-  } catch (const UsageError& e) {
-    failure = {2, e.what()};
-  } catch (const std::exception& e) {
-    failure = {1, e.what()};
-  }
-}
-
-// Collective: when any rank failed, the lowest failing rank rethrows its error (prefixed with
-// its rank under MPI) and the others throw OtherRankFailed; nobody writes output.
-void agree(comm::Communicator& c, const Failure& failure) {
-  const int code = c.allreduce_max(failure.code);
-  if (code == 0) return;
-  const int first = c.size() - c.allreduce_max(failure.code ? c.size() - c.rank() : 0);
-  if (c.rank() != first) throw OtherRankFailed(code);
-  const std::string message =
-      c.size() > 1 ? "rank " + std::to_string(c.rank()) + " of " + std::to_string(c.size()) + ": " + failure.message
-                   : failure.message;
-  if (failure.code == 2) throw UsageError(message);  // maps to exit code 2 like InputError
-  throw Error(message);
-}
-
 }  // namespace
 
 ClimatologySummary run_climatology(const ClimatologyOptions& options) {
@@ -151,7 +117,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
   comm::Communicator& c = comm::world();
   parallel::set_threads(options.threads);
 
-  Failure failure;
+  std::pair<int, std::string> failure{0, ""};
   std::vector<Source> sources;
   std::vector<Item> items;
   std::optional<detail::StatsMetadata> existing;
@@ -159,7 +125,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
   RunConfig config;
 
   // ---- phase 1 (every rank): options, inputs, times, duplicates ------------------------
-  guarded(failure, [&] {
+  failure = comm::capture([&] {
     if (options.inputs.empty()) throw UsageError("climatology: no input files");
     if (options.output.empty()) throw UsageError("climatology: -o STATS.nc is required");
     const bool exists = fs::exists(options.output);
@@ -227,12 +193,12 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
       }
     if (items.empty()) throw InputError(options.inputs.front(), "time", "at least one time step");
   });
-  agree(c, failure);
+  comm::agree(c, failure.first, failure.second);
 
   // ---- phase 2 (every rank, its share): accumulate ------------------------------------
   Accumulator acc(meta.group_by, meta.grid.points, static_cast<int>(meta.grid.levels));
   const comm::Range mine = comm::partition(items.size(), c.rank(), c.size());
-  guarded(failure, [&] {
+  failure = comm::capture([&] {
     std::size_t i = mine.begin;
     detail::StepBuffers buffers;
     while (i < mine.end) {
@@ -269,7 +235,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
       i = j;
     }
   });
-  agree(c, failure);
+  comm::agree(c, failure.first, failure.second);
 
   // ---- phase 3: reduce to rank 0, merge with the file, write --------------------------
   reduce_to_root(c, acc);

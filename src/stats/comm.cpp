@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
+#include <filesystem>
 #include <memory>
 
 #include "latentlift/errors.hpp"
@@ -169,6 +170,53 @@ std::string rank_output_name(const std::string& pattern, std::size_t time_index)
   const std::size_t dot = pattern.find_last_of('.');
   const std::size_t cut = (dot == std::string::npos || (slash != std::string::npos && dot < slash)) ? pattern.size() : dot;
   return pattern.substr(0, cut) + "_t" + index + pattern.substr(cut);
+}
+
+std::pair<int, std::string> capture(const std::function<void()>& body) {
+  try {
+    body();
+  } catch (const RankFailed& e) {
+    return {e.exit_code(), ""};
+  } catch (const InputError& e) {
+    return {2, e.what()};
+  } catch (const UsageError& e) {
+    return {2, e.what()};
+  } catch (const std::exception& e) {
+    return {1, e.what()};
+  }
+  return {0, ""};
+}
+
+void agree(Communicator& comm, int code, const std::string& message) {
+  const int worst = comm.allreduce_max(code);
+  if (worst == 0) return;
+  const int first = comm.size() - comm.allreduce_max(code ? comm.size() - comm.rank() : 0);
+  if (comm.rank() != first) throw RankFailed(worst);
+  const std::string text = comm.size() > 1 ? "rank " + std::to_string(comm.rank()) + " of " +
+                                                 std::to_string(comm.size()) + ": " + message
+                                           : message;
+  if (code == 2) throw UsageError(text);  // exit code 2, like InputError
+  throw Error(text);
+}
+
+std::size_t distributed_over_times(Communicator& comm, std::size_t n_times, const std::string& pattern,
+                                   const std::function<void(std::size_t, const std::string&)>& work) {
+  const Range mine = partition(n_times, comm.rank(), comm.size());
+  std::vector<std::string> written;
+  auto [code, message] = capture([&] {
+    for (std::size_t t = mine.begin; t < mine.end; ++t) {
+      const std::string output = rank_output_name(pattern, t);
+      work(t, output);
+      written.push_back(output);
+    }
+  });
+  const int worst = comm.allreduce_max(code);
+  if (worst != 0) {
+    std::error_code ignored;
+    for (const auto& file : written) std::filesystem::remove(file, ignored);
+  }
+  agree(comm, code, message);
+  return static_cast<std::size_t>(comm.allreduce_sum(static_cast<long long>(written.size())));
 }
 
 }  // namespace latentlift::comm
