@@ -50,6 +50,12 @@ ATOL = 1e-9
 TOP_PA = 10000.0
 SOURCE_LAYER_PA = 30000.0
 MIN_EXCESS_K = 0.01
+# Runs: name -> (buoyancy mode, top Pa, source layer Pa, min excess K). "alt" runs other settings.
+RUNS = {
+    "virtual": ("virtual", TOP_PA, SOURCE_LAYER_PA, MIN_EXCESS_K),
+    "temperature": ("temperature", TOP_PA, SOURCE_LAYER_PA, MIN_EXCESS_K),
+    "alt": ("virtual", 25000.0, 15000.0, 0.3),
+}
 
 
 # ---- moisture (Bolton 1980)
@@ -167,8 +173,9 @@ def vapour_pressure(col):
     return e
 
 
-def analyse(col, mode):
+def analyse(col, run):
     """METHODS definitions; returns (per-level dict of arrays, column dict)."""
+    mode, analysis_top_pa, source_layer_pa, min_excess_k = RUNS[run]
     n = len(col.p)
     e = vapour_pressure(col)
     usable = np.isfinite(col.p) & np.isfinite(col.t) & np.isfinite(e) & (e > 0)
@@ -210,14 +217,14 @@ def analyse(col, mode):
     theta_w_star = down.end[2 * m:]
 
     # Tangent saturated adiabat over levels up to the analysis top.
-    in_top = p >= TOP_PA
+    in_top = p >= analysis_top_pa
     cand = np.where(in_top)[0]
     kmin = cand[np.argmin(theta_w_star[cand])]     # argmin returns the first = lowest level
     colres["tangent_theta_w_k"] = theta_w_star[kmin]
     colres["tangent_pressure_pa"] = p[kmin]
 
     # Environment, linear in ln p between usable levels.
-    top_pa = max(TOP_PA, p[-1])                    # ascent ends at the top or the highest level
+    top_pa = max(analysis_top_pa, p[-1])                    # ascent ends at the top or the highest level
     x_top = math.log(top_pa)
     x_lev = lnp[::-1]                              # increasing for np.interp
 
@@ -287,7 +294,7 @@ def analyse(col, mode):
             best = max(best, float(zv[i]))
             lo, hi = zs[max(i - 1, 0)], zs[min(i + 1, len(zs) - 1)]
         res["max_excess"] = best
-        if not best > MIN_EXCESS_K:
+        if not best > min_excess_k:
             return res
         res["flag"] = 1
         # Zero crossings of the buoyancy from the source to the top.
@@ -353,7 +360,7 @@ def analyse(col, mode):
         return float(np.interp(x, x_lev, z[::-1]))
 
     # Source layer, most-unstable parcel, easiest lift.
-    src = [k for k in range(m) if p[k] >= p[0] - SOURCE_LAYER_PA]
+    src = [k for k in range(m) if p[k] >= p[0] - source_layer_pa]
     k_mu = src[0]
     for k in src:
         if theta_w[k] > theta_w[k_mu]:
@@ -386,7 +393,7 @@ def analyse(col, mode):
         x0, x1 = lnp[src[j_unflagged]], lnp[src[j_flagged]]
         if not np.isfinite(e0):
             return x0
-        return x0 + (MIN_EXCESS_K - e0) / (e1 - e0) * (x1 - x0)
+        return x0 + (min_excess_k - e0) / (e1 - e0) * (x1 - x0)
 
     layers = []
     j = 0
@@ -493,6 +500,8 @@ def random_columns(rng, count):
     cols = []
     for n in range(count):
         levels = COARSE_HPA if n % 4 == 3 else STANDARD_HPA
+        if n % 5 == 1:
+            levels = levels + [70, 50]          # levels above the analysis top
         p = np.array(levels, float) * 100.0
         psfc = rng.uniform(85000.0, 103000.0)
         t_sfc = rng.uniform(262.0, 306.0)
@@ -520,6 +529,21 @@ def random_columns(rng, count):
         kind = kinds[n % 4]
         hum = {"specific_humidity": r / (1 + r), "mixing_ratio": r, "relative_humidity": rh,
                "dew_point": dew_point_k(e)}[kind]
+        # Data faults the analysis must handle (METHODS "Quality control"): a missing value,
+        # a temperature outside 150-350 K, a dew point above the temperature, humidity above
+        # saturation.
+        t = t.copy()
+        hum = hum.copy()
+        if n % 6 == 2:
+            t[levels.index(500)] = np.nan
+        if n % 7 == 3:
+            t[levels.index(250)] = 400.0
+        if kind == "dew_point" and n % 8 == 2:
+            hum[levels.index(850)] = t[levels.index(850)] + 2.0
+        if kind == "specific_humidity" and n % 8 == 0:
+            i850 = levels.index(850)
+            esat = es_pa(t[i850])
+            hum[i850] = 1.1 * EPS * esat / (p[i850] - (1 - EPS) * esat)
         cols.append(Column("random_%02d" % n, "random", p, t, hum, kind, z, psfc))
     return cols
 
@@ -643,9 +667,10 @@ def fmt(v):
 
 def write_output(path, cols, lcl_rows, adiabat_rows):
     """Line-based text: 'lcl', 'pseudoadiabat', 'column', 'level', 'result', 'levelresult' records."""
-    lines = ["# latentlift SciPy reference v1 (tests/reference/scipy_reference.py)",
-             "settings top_pressure_pa %s source_layer_pa %s min_excess_k %s" %
-             (fmt(TOP_PA), fmt(SOURCE_LAYER_PA), fmt(MIN_EXCESS_K))]
+    lines = ["# latentlift SciPy reference v1 (tests/reference/scipy_reference.py)"]
+    for run, (mode, top, layer, excess) in RUNS.items():
+        lines.append("settings %s buoyancy %s top_pressure_pa %s source_layer_pa %s min_excess_k %s" %
+                     (run, mode, fmt(top), fmt(layer), fmt(excess)))
     for row in lcl_rows:
         lines.append("lcl " + " ".join(fmt(v) for v in row))
     for row in adiabat_rows:       # theta_w_K pressure_Pa temperature_K
@@ -656,14 +681,15 @@ def write_output(path, cols, lcl_rows, adiabat_rows):
         for i in range(len(col.p)):
             lines.append("level %d %s %s %s %s" % (i, fmt(col.p[i]), fmt(col.t[i]), fmt(col.hum[i]),
                                                   fmt(col.z[i])))
-        for mode in ("virtual", "temperature"):
+        runs = ["virtual", "temperature"] + (["alt"] if col.source in ("invented", "random") else [])
+        for mode in runs:
             lev, res = analyse(col, mode)
             lines.append("result %s " % mode + " ".join("%s %s" % (k, fmt(v)) for k, v in res.items()))
             for i in range(len(col.p)):
                 lines.append("levelresult %s %d " % (mode, i) + " ".join(
                     "%s %s" % (k, fmt(lev[k][i])) for k in lev))
         lines.append("end")
-    tmp = path + ".tmp"
+    tmp = "%s.%d.tmp" % (path, os.getpid())
     with open(tmp, "w") as fh:
         fh.write("\n".join(lines) + "\n")
     os.replace(tmp, path)
@@ -675,7 +701,7 @@ def main():
         return 2
     real_dir, out = sys.argv[1], sys.argv[2]
     rng = np.random.default_rng(20261202)
-    cols = invented_columns(rng) + random_columns(rng, 28) + arm_columns(real_dir) + ecmwf_columns(real_dir)
+    cols = invented_columns(rng) + random_columns(rng, 24) + arm_columns(real_dir) + ecmwf_columns(real_dir)
     lcl_rows = []
     for p_hpa in (1000.0, 900.0, 800.0):
         for tc in (-10.0, 0.0, 10.0, 20.0, 30.0, 40.0):
