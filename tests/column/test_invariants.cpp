@@ -649,5 +649,151 @@ TEST(ColumnInvariants, ResultDoesNotDependOnLevelOrder) {
   }
 }
 
+/// Column outputs as an array, for exact comparisons between two runs.
+std::vector<double> outputs_of(const ColumnResult& r) {
+  return {r.latent_layer_depth_pa, r.latent_layer_depth_z_m, r.latent_layer_bottom_pa,
+          r.latent_layer_top_pa, r.tangent_theta_w_k, r.tangent_pressure_pa, r.mu_pressure_pa,
+          r.mu_theta_w_k, r.mu_cape_j_kg, r.mu_cin_j_kg, r.mu_lfc_pressure_pa, r.mu_el_pressure_pa,
+          r.mu_lift_to_lfc_pa, r.mu_lift_to_lfc_z_m, r.easiest_lift_pa, r.easiest_lift_pressure_pa,
+          static_cast<double>(r.latent_class), static_cast<double>(r.qc.columns_analysed)};
+}
+
+/// Quality-control counts as an array.
+std::vector<double> qc_of(const ColumnResult& r) {
+  return {static_cast<double>(r.qc.columns_analysed), static_cast<double>(r.qc.columns_skipped),
+          static_cast<double>(r.qc.humidity_clipped), static_cast<double>(r.qc.dew_point_corrected),
+          static_cast<double>(r.qc.temperature_rejected)};
+}
+
+bool identical(const std::vector<double>& a, const std::vector<double>& b, int* where) {
+  for (size_t q = 0; q < a.size(); ++q)
+    if (!((std::isnan(a[q]) && std::isnan(b[q])) || a[q] == b[q])) {
+      *where = static_cast<int>(q);
+      return false;
+    }
+  return true;
+}
+
+TEST(ColumnInvariants, ColumnOutputsDoNotDependOnLevelFields) {
+  // --level-fields adds per-level outputs; it must not change the 2-D fields.
+  for (BuoyancyMode mode : kModes) {
+    AnalysisSettings plain = settings_for(mode);
+    plain.level_fields = false;
+    ColumnAnalyzer other(plain);
+    ColumnResult r2;
+    long failures = 0;
+    for_each_column(mode, [&](int i, const OwnedColumn& c, const LevelView&, const ColumnAnalyzer&,
+                              const ColumnResult& r) {
+      other.analyze(c.view(), r2);
+      int q = -1;
+      if (!identical(outputs_of(r), outputs_of(r2), &q) && failures++ < 5)
+        ADD_FAILURE() << describe(i, c) << ": output " << q << " is " << outputs_of(r)[q]
+                      << " with level fields, " << outputs_of(r2)[q] << " without";
+    });
+    EXPECT_EQ(failures, 0) << "mode " << to_string(mode);
+  }
+}
+
+TEST(ColumnInvariants, QcCountsDoNotDependOnLevelFields) {
+  // The QC counts go to the output attributes and the run summary: the same input
+  // must give the same counts whether or not --level-fields is asked for.
+  for (BuoyancyMode mode : kModes) {
+    AnalysisSettings plain = settings_for(mode);
+    plain.level_fields = false;
+    ColumnAnalyzer other(plain);
+    ColumnResult r2;
+    long failures = 0;
+    for_each_column(mode, [&](int i, const OwnedColumn& c, const LevelView&, const ColumnAnalyzer&,
+                              const ColumnResult& r) {
+      other.analyze(c.view(), r2);
+      int q = -1;
+      if (!identical(qc_of(r), qc_of(r2), &q) && failures++ < 5)
+        ADD_FAILURE() << describe(i, c) << ": QC count " << q << " (analysed, skipped, humidity "
+                      << "clipped, dew point corrected, temperature rejected) is " << qc_of(r)[q]
+                      << " with level fields, " << qc_of(r2)[q] << " without";
+    });
+    EXPECT_EQ(failures, 0) << "mode " << to_string(mode);
+  }
+}
+
+TEST(ColumnInvariants, ReusedAnalyzerGivesSameResultAsFreshOne) {
+  // ColumnAnalyzer keeps scratch space between columns: nothing of one column may leak
+  // into the next.
+  const auto& columns = pool();
+  for (BuoyancyMode mode : kModes) {
+    const AnalysisSettings s = settings_for(mode);
+    ColumnAnalyzer reused(s);
+    ColumnResult r;
+    long failures = 0;
+    for (int i = 0; i < static_cast<int>(columns.size()); i += 7) {
+      reused.analyze(columns[i].view(), r);
+      const ColumnResult fresh = analyze_column(columns[i].view(), s);
+      int q = -1;
+      bool ok = identical(outputs_of(r), outputs_of(fresh), &q);
+      for (int k = 0; k < columns[i].n() && ok; ++k)
+        ok = same(r.levels.max_parcel_excess_k[k], fresh.levels.max_parcel_excess_k[k]) &&
+             r.levels.latent_flag[k] == fresh.levels.latent_flag[k];
+      if (!ok && failures++ < 5) ADD_FAILURE() << describe(i, columns[i]) << ": differs (output " << q << ")";
+    }
+    EXPECT_EQ(failures, 0) << "mode " << to_string(mode);
+  }
+}
+
+TEST(ColumnInvariants, LargerMinExcessFlagsNoMoreLevels) {
+  // METHODS: "a larger min_excess_k raises the bar for a flag": the flagged levels with
+  // 0.5 K are a subset of those with the default, and the layer depth does not grow.
+  AnalysisSettings strict = settings_for(BuoyancyMode::virtual_temperature);
+  strict.min_excess_k = 0.5;
+  ColumnAnalyzer other(strict);
+  ColumnResult rs;
+  long failures = 0, dropped = 0;
+  for_each_column(BuoyancyMode::virtual_temperature,
+                  [&](int i, const OwnedColumn& c, const LevelView& v, const ColumnAnalyzer&,
+                      const ColumnResult& r) {
+                    other.analyze(c.view(), rs);
+                    bool ok = !(rs.latent_layer_depth_pa > r.latent_layer_depth_pa + 1e-6);
+                    for (int k = 0; k < c.n(); ++k) {
+                      if (!v.analysed[k]) continue;
+                      if (rs.levels.latent_flag[k] == 1 && r.levels.latent_flag[k] != 1) ok = false;
+                      if (rs.levels.latent_flag[k] != 1 && r.levels.latent_flag[k] == 1) ++dropped;
+                    }
+                    if (!ok && failures++ < 5)
+                      ADD_FAILURE() << describe(i, c) << ": min_excess 0.5 K flags more (depth "
+                                    << rs.latent_layer_depth_pa << " vs " << r.latent_layer_depth_pa << ")";
+                  });
+  EXPECT_EQ(failures, 0);
+  EXPECT_GT(dropped, 0) << "the stricter threshold should drop some flags";
+}
+
+TEST(ColumnInvariants, PotentialInstabilityMarksThetaWDecreasingUpward) {
+  // METHODS "Static stability": potential (convective) instability of the layer from
+  // a level to the next usable level above is 1 where theta_w decreases upward, else
+  // 0. Checked for the layers whose bottom lies at or below the analysis top.
+  long failures = 0, checked = 0;
+  for_each_column(BuoyancyMode::virtual_temperature,
+                  [&](int i, const OwnedColumn& c, const LevelView& v, const ColumnAnalyzer&,
+                      const ColumnResult& r) {
+                    if (v.n_usable < 3) return;
+                    std::vector<int> up;  // usable levels, bottom-up
+                    for (int k = 0; k < c.n(); ++k)
+                      if (v.usable[k]) up.push_back(k);
+                    std::sort(up.begin(), up.end(), [&](int a, int b) { return c.pressure_pa[a] > c.pressure_pa[b]; });
+                    for (size_t j = 0; j + 1 < up.size(); ++j) {
+                      const int k = up[j], above = up[j + 1];
+                      const double tw = r.levels.wet_bulb_potential_temperature_k[k];
+                      const double tw_above = r.levels.wet_bulb_potential_temperature_k[above];
+                      if (!v.analysed[k] || std::isnan(tw_above)) continue;
+                      ++checked;
+                      const int expected = tw_above < tw ? 1 : 0;
+                      if (r.levels.potential_instability[k] != expected && failures++ < 5)
+                        ADD_FAILURE() << describe(i, c) << " level " << c.pressure_pa[k] << ": theta_w "
+                                      << tw << " below " << tw_above << ", potential instability "
+                                      << int(r.levels.potential_instability[k]);
+                    }
+                  });
+  EXPECT_GT(checked, 0);
+  EXPECT_EQ(failures, 0);
+}
+
 }  // namespace
 }  // namespace latentlift
