@@ -45,6 +45,7 @@ T0 = 273.15
 P1000 = 100000.0
 RTOL = 1e-10
 ATOL = 1e-9
+ROUNDING_K = 1e-9     # buoyancy (K) this close to zero is rounding noise
 
 # Analysis settings (defaults of METHODS/DESIGN).
 TOP_PA = 10000.0
@@ -297,8 +298,11 @@ def analyse(col, run):
         if not best > min_excess_k:
             return res
         res["flag"] = 1
-        # Zero crossings of the buoyancy from the source to the top.
-        xs, vals = xs_all, vals_all
+        # Zero crossings of the buoyancy from the source to the top. Buoyancy within ROUNDING_K
+        # of zero counts as zero: a saturated source level is exactly neutral at its own LCL
+        # (T_L = T, p_L = p) and rounding must not make it buoyant there.
+        xs = xs_all
+        vals = np.where(np.abs(vals_all) < ROUNDING_K, 0.0, vals_all)
         crossings = []        # (x, upward): upward = not positive below, positive above
         for j in range(len(xs) - 1):
             v0, v1 = vals[j], vals[j + 1]
@@ -312,12 +316,12 @@ def analyse(col, run):
                 else:
                     xc = brentq(lambda x: buoy1(k, x), xs[j + 1], xs[j], xtol=1e-13)
                 crossings.append((xc, v1 > 0.0))
-        if buoy1(k, x_l) > 0.0:
+        if buoy1(k, x_l) > ROUNDING_K:
             x_lfc = x_l
         else:
             ups = [xc for xc, upward in crossings if upward and xc <= x_l]
             x_lfc = max(ups)                           # the first one above the LCL
-        if buoy1(k, x_top) > 0.0:
+        if buoy1(k, x_top) > ROUNDING_K:
             x_el = x_top
         else:
             downs = [xc for xc, upward in crossings if not upward and xc < x_lfc]
