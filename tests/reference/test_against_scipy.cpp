@@ -495,7 +495,7 @@ void check_column_fields(const std::string& mode) {
   Worst w_el("mu_el_pressure (Pa), " + mode), w_lift("mu_lift_to_lfc (Pa), " + mode);
   Worst w_liftz("mu_lift_to_lfc_z (m), " + mode), w_easy("easiest_lift (Pa), " + mode);
   Worst w_depth("latent_layer_depth (Pa), " + mode), w_bottom("latent_layer_bottom (Pa), " + mode);
-  Worst w_top("latent_layer_top (Pa), " + mode);
+  Worst w_top("latent_layer_top (Pa), " + mode), w_depthz("latent_layer_depth_z (m), " + mode);
   const AnalysisSettings settings = settings_for(mode);
   for (const ColumnRef& col : reference().columns) {
     if (!col.modes.count(mode)) continue;
@@ -544,6 +544,11 @@ void check_column_fields(const std::string& mode) {
     }
     expect_pressure_near(res.latent_layer_depth_pa, ref.get("latent_layer_depth_pa"), where,
                          "latent layer depth", w_depth);
+    if (!both_missing(res.latent_layer_depth_z_m, ref.get("latent_layer_depth_z_m"))) {
+      w_depthz.add(res.latent_layer_depth_z_m - ref.get("latent_layer_depth_z_m"), where);
+      EXPECT_NEAR(res.latent_layer_depth_z_m, ref.get("latent_layer_depth_z_m"), 30.0)
+          << where << " latent layer depth z";
+    }
     expect_pressure_near(res.latent_layer_bottom_pa, ref.get("latent_layer_bottom_pa"), where,
                          "latent layer bottom", w_bottom);
     expect_pressure_near(res.latent_layer_top_pa, ref.get("latent_layer_top_pa"), where,
@@ -575,6 +580,47 @@ TEST(ScipyReference, SourceLayerParcelsAgreeWithOtherSettings) {
 TEST(ScipyReference, ColumnFieldsAgreeWithOtherSettings) {
   REQUIRE_REFERENCE();
   check_column_fields("alt");
+}
+
+TEST(ScipyReference, TopDownLevelOrderGivesTheSameResults) {
+  // ColumnInput accepts either vertical order (column.hpp): the reference columns reversed.
+  REQUIRE_REFERENCE();
+  int compared = 0;
+  for (const ColumnRef& col : reference().columns) {
+    ColumnRef rev = col;
+    std::reverse(rev.p.begin(), rev.p.end());
+    std::reverse(rev.t.begin(), rev.t.end());
+    std::reverse(rev.hum.begin(), rev.hum.end());
+    std::reverse(rev.z.begin(), rev.z.end());
+    for (const char* run : {"virtual", "temperature"}) {
+      const ColumnResult a = analyze_column(input_of(col), settings_for(run));
+      const ColumnResult b = analyze_column(input_of(rev), settings_for(run));
+      const std::string where = at(col, run);
+      auto same = [&](double x, double y, const char* what) {
+        if (both_missing(x, y)) return;
+        EXPECT_NEAR(x, y, 1e-6 * std::max(1.0, std::fabs(x))) << where << " " << what;
+      };
+      same(a.tangent_theta_w_k, b.tangent_theta_w_k, "tangent_theta_w");
+      same(a.tangent_pressure_pa, b.tangent_pressure_pa, "tangent_pressure");
+      same(a.mu_pressure_pa, b.mu_pressure_pa, "mu_pressure");
+      same(a.mu_cape_j_kg, b.mu_cape_j_kg, "mu_cape");
+      same(a.mu_cin_j_kg, b.mu_cin_j_kg, "mu_cin");
+      same(a.mu_lfc_pressure_pa, b.mu_lfc_pressure_pa, "mu_lfc");
+      same(a.mu_el_pressure_pa, b.mu_el_pressure_pa, "mu_el");
+      same(a.mu_lift_to_lfc_z_m, b.mu_lift_to_lfc_z_m, "mu_lift_to_lfc_z");
+      same(a.easiest_lift_pa, b.easiest_lift_pa, "easiest_lift");
+      same(a.latent_layer_depth_pa, b.latent_layer_depth_pa, "latent_layer_depth");
+      same(a.latent_layer_depth_z_m, b.latent_layer_depth_z_m, "latent_layer_depth_z");
+      EXPECT_EQ(a.latent_class, b.latent_class) << where;
+      const size_t n = col.p.size();
+      for (size_t i = 0; i < n; ++i) {
+        same(a.levels.max_parcel_excess_k[i], b.levels.max_parcel_excess_k[n - 1 - i], "max_parcel_excess");
+        EXPECT_EQ(a.levels.latent_flag[i], b.levels.latent_flag[n - 1 - i]) << where << " level " << i;
+      }
+      ++compared;
+    }
+  }
+  EXPECT_GT(compared, 0);
 }
 
 TEST(ScipyReference, IncompleteArmSoundingsAreSkippedWithMissingValues) {
