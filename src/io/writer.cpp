@@ -6,9 +6,11 @@
 #include <cstdio>
 #include <ctime>
 #include <filesystem>
+#include <variant>
 
 #include "gis/netcdf_crs.hpp"  // grid_mapping completion
 #include "io/dataset_impl.hpp"
+#include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift {
@@ -144,6 +146,26 @@ void write_grid_mapping(int ncid_in, int ncid_out, const std::string& grid_mappi
   gis::complete_grid_mapping_variable(ncid_in, in_var, ncid_out, out_var, input_file, grid_mapping_name);
 }
 
+namespace {
+
+/// A regular lat/lon input without a grid_mapping: record WGS 84 longitude/latitude (the usual
+/// meaning of such grids; common practice) so that GIS clients know the coordinate system.
+void write_latlon_grid_mapping(int ncid_out, const std::string& name, const std::string& file) {
+  int var = -1;
+  d::check(nc_def_var(ncid_out, name.c_str(), NC_INT, 0, nullptr, &var), file, "defining " + name);
+  for (const gis::Attribute& attribute : gis::Crs::wgs84().grid_mapping()) {
+    if (const auto* text = std::get_if<std::string>(&attribute.value)) {
+      put_text(ncid_out, var, attribute.name.c_str(), *text, file);
+    } else {
+      const auto& numbers = std::get<std::vector<double>>(attribute.value);
+      d::check(nc_put_att_double(ncid_out, var, attribute.name.c_str(), NC_DOUBLE, numbers.size(), numbers.data()),
+               file, attribute.name);
+    }
+  }
+}
+
+}  // namespace
+
 struct OutputWriter::Impl {
   const InputDataset* input = nullptr;
   OutputOptions options;
@@ -232,7 +254,13 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   for (const std::string& coord : src.horizontal_coordinates)
     if (!coord.empty()) copy_var(coord);
   for (const std::string& coord : src.aux_coordinates) copy_var(coord);
-  if (!grid.grid_mapping.empty()) write_grid_mapping(grid_file.id(), out, grid.grid_mapping, grid_file.path());
+  std::string grid_mapping = grid.grid_mapping;
+  if (!grid_mapping.empty()) {
+    write_grid_mapping(grid_file.id(), out, grid_mapping, grid_file.path());
+  } else if (grid.kind == HorizontalKind::latlon) {
+    grid_mapping = d::find_var(out, "crs") < 0 ? "crs" : "latentlift_crs";
+    write_latlon_grid_mapping(out, grid_mapping, path);
+  }
   std::string coordinates;
   for (const std::string& coord : src.aux_coordinates)
     if (d::find_var(out, coord) >= 0) coordinates += (coordinates.empty() ? "" : " ") + coord;
@@ -285,7 +313,7 @@ void OutputWriter::Impl::define(const InputDataset& in) {
     put_text(out, var, "long_name", info.long_name, path);
     if (*info.standard_name) put_text(out, var, "standard_name", info.standard_name, path);
     if (!coordinates.empty()) put_text(out, var, "coordinates", coordinates, path);
-    if (!grid.grid_mapping.empty()) put_text(out, var, "grid_mapping", grid.grid_mapping, path);
+    if (!grid_mapping.empty()) put_text(out, var, "grid_mapping", grid_mapping, path);
     field_var[info.name] = var;
   };
   for (const FieldInfo& f : real_fields()) define_field(f, false, false);
