@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "latentlift/comm.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/parallel.hpp"
 #include "latentlift/pipeline.hpp"
@@ -55,6 +56,27 @@ int run_analyze(const AnalyzeArgs& args) {
   if (args.level_fields) words.push_back("--level-fields");
   if (args.overwrite) words.push_back("--overwrite");
   output_options.history = command_line(0, words);
+  // MPI scale-out (issue 5; helper in src/stats/comm.cpp): under mpirun with more than one
+  // rank, the ranks share the input time steps and write one file per time step, named
+  // after -o (OUT.nc -> OUT_t0003.nc, or a "{time}" placeholder in the name). When any rank
+  // fails, every rank removes the files it wrote and the lowest failing rank reports.
+  if (comm::world().size() > 1) {
+    try {
+      const std::size_t files = comm::distributed_over_times(
+          comm::world(), input.grid().n_times, args.output, [&](std::size_t time_index, const std::string& out) {
+            PipelineOptions one_step = options;
+            one_step.time_indices = {time_index};
+            one_step.progress = nullptr;
+            analyze_to_file(input, out, one_step, output_options);
+          });
+      if (!args.quiet && comm::world().rank() == 0)
+        std::printf("analyze: %d ranks wrote %zu files, one per time step (%s)\n", comm::world().size(), files,
+                    comm::rank_output_name(args.output, 0).c_str());
+    } catch (const comm::RankFailed& e) {
+      return e.exit_code();  // the failing rank printed the reason
+    }
+    return 0;
+  }
   RunSummary summary = analyze_to_file(input, args.output, options, output_options);
   if (progress) std::fputs("\n", stderr);
   if (!args.quiet) {
