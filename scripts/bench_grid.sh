@@ -53,12 +53,15 @@ wall_seconds() {  # "Elapsed (wall clock) time (h:mm:ss or m:ss): 0:03.21" -> se
   awk -F': ' '/Elapsed \(wall clock\)/ {n = split($2, p, ":"); s = 0; for (i = 1; i <= n; i++) s = s * 60 + p[i]; print s}' "$1"
 }
 peak_mb() { awk -F': ' '/Maximum resident set size/ {printf "%.0f", $2 / 1024}' "$1"; }
+cpu_seconds() { awk -F': ' '/User time|System time/ {s += $2} END {printf "%.2f", s}' "$1"; }
 
 read_wall=$(wall_seconds "$work/read.time")
 wall=$(wall_seconds "$work/analyze.time")
 echo
 echo "bench_grid: results (global 0.25 degree, $columns columns x 37 levels, $threads threads, $(nproc) cores)"
-printf '  read T, q, z only (netCDF-C): %6.2f s wall, peak %s MB\n' "$read_wall" "$(peak_mb "$work/read.time")"
-printf '  latentlift analyze:           %6.2f s wall, peak %s MB, %.0f columns/s\n' \
-  "$wall" "$(peak_mb "$work/analyze.time")" "$(awk "BEGIN {print $columns / $wall}")"
+printf '  read T, q, z only (netCDF-C): %6.2f s wall, %s s cpu, peak %s MB\n' \
+  "$read_wall" "$(cpu_seconds "$work/read.time")" "$(peak_mb "$work/read.time")"
+printf '  latentlift analyze:           %6.2f s wall, %s s cpu, peak %s MB, %.0f columns/s\n' \
+  "$wall" "$(cpu_seconds "$work/analyze.time")" "$(peak_mb "$work/analyze.time")" "$(awk "BEGIN {print $columns / $wall}")"
+echo "  load average during the run: $(cut -d' ' -f1-3 /proc/loadavg) (other work on the machine slows wall time)"
 if [ "$keep" -eq 1 ]; then echo "bench_grid: kept $work"; fi
