@@ -704,8 +704,12 @@ def main():
         sys.stderr.write(__doc__)
         return 2
     real_dir, out = sys.argv[1], sys.argv[2]
-    rng = np.random.default_rng(20261202)
-    cols = invented_columns(rng) + random_columns(rng, 24) + arm_columns(real_dir) + ecmwf_columns(real_dir)
+    # LATENTLIFT_REFERENCE_RANDOM="COUNT SEED" widens the random set for a longer offline search.
+    count, seed = 24, 20261202
+    if os.environ.get("LATENTLIFT_REFERENCE_RANDOM"):
+        count, seed = (int(v) for v in os.environ["LATENTLIFT_REFERENCE_RANDOM"].split())
+    rng = np.random.default_rng(seed)
+    cols = invented_columns(rng) + random_columns(rng, count) + arm_columns(real_dir) + ecmwf_columns(real_dir)
     lcl_rows = []
     for p_hpa in (1000.0, 900.0, 800.0):
         for tc in (-10.0, 0.0, 10.0, 20.0, 30.0, 40.0):
