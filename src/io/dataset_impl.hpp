@@ -21,6 +21,7 @@ enum class DimRole { vertical, horizontal, outer };
 struct VarRef {
   int file = -1;
   int varid = -1;
+  int type = 0;                  // netCDF type of the stored values
   std::string name, quantity, units;
   VarShape shape;
   std::vector<DimRole> roles;    // per variable dimension

@@ -204,6 +204,7 @@ VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
   var.name = d::var_name(ncid, found.varid);
   var.shape = d::var_shape(ncid, found.varid);
   var.units = d::text_attribute(ncid, found.varid, "units");
+  var.type = d::var_type(ncid, found.varid);
   var.quantity = found.standard_name;
   bool has_units = d::has_attribute(ncid, found.varid, "units");
 
@@ -649,7 +650,46 @@ std::vector<QuantitySource> InputDataset::sources() const {
 
 namespace {
 
-thread_local std::vector<double> t_raw;
+thread_local std::vector<double> t_raw_double;
+thread_local std::vector<float> t_raw_float;
+thread_local std::vector<std::size_t> t_offsets;
+
+/// Turn raw values into SI and scatter them to dst[c * column_stride + k]: raw value of
+/// column c and level k sits at raw[offsets[c] + k * level_stride].
+template <typename Raw>
+bool scatter(const Raw* raw, const VarRef& var, std::size_t level_stride, std::size_t n_levels,
+             const std::vector<std::size_t>& offsets, std::size_t column_stride, double* dst) {
+  const double scale = var.scale, offset = var.offset, lo = var.valid_min, hi = var.valid_max;
+  const double fill0 = var.fills.size() > 0 ? var.fills[0] : kNaN;
+  const double fill1 = var.fills.size() > 1 ? var.fills[1] : kNaN;
+  const bool more_fills = var.fills.size() > 2;
+  bool valid = false;
+  auto convert = [&](double v) {
+    bool missing = std::isnan(v) || v < lo || v > hi || v == fill0 || v == fill1;
+    if (more_fills)
+      for (double fill : var.fills) missing = missing || v == fill;
+    valid = valid || !missing;
+    return missing ? kNaN : v * scale + offset;
+  };
+  const std::size_t n_columns = offsets.size();
+  if (level_stride == 1) {  // levels innermost in the file: contiguous per column
+    for (std::size_t c = 0; c < n_columns; ++c) {
+      const Raw* in = raw + offsets[c];
+      double* out = dst + c * column_stride;
+      for (std::size_t k = 0; k < n_levels; ++k) out[k] = convert(static_cast<double>(in[k]));
+    }
+  } else {  // levels outside the horizontal dimensions: transpose in cache-sized tiles of columns
+    constexpr std::size_t kTile = 64;
+    for (std::size_t c0 = 0; c0 < n_columns; c0 += kTile) {
+      const std::size_t c1 = std::min(n_columns, c0 + kTile);
+      for (std::size_t k = 0; k < n_levels; ++k) {
+        const Raw* in = raw + k * level_stride;
+        for (std::size_t c = c0; c < c1; ++c) dst[c * column_stride + k] = convert(static_cast<double>(in[offsets[c]]));
+      }
+    }
+  }
+  return valid;
+}
 
 /// Read one variable's hyperslab and scatter it, converted to SI, into dst[column * column_stride + level].
 void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t local_time,
@@ -657,23 +697,23 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
               std::size_t ncols, std::size_t column_stride, double* dst, bool& any_valid) {
   const std::size_t ndims = var.shape.names.size();
   std::vector<size_t> start(ndims, 0), count(ndims, 1);
-  std::vector<std::size_t> dst_stride(ndims, 0);
   const bool two_d = impl.grid.horizontal.size() == 2;
+  int vertical = -1, row_dim = -1, col_dim = -1;
   for (std::size_t i = 0; i < ndims; ++i) {
     switch (var.roles[i]) {
       case DimRole::vertical:
         count[i] = var.shape.lengths[i];
-        dst_stride[i] = 1;
+        vertical = static_cast<int>(i);
         break;
       case DimRole::horizontal:
         if (two_d && var.grid_dim[i] == 0) {
           start[i] = row0;
           count[i] = nrows;
-          dst_stride[i] = ncols * column_stride;
+          row_dim = static_cast<int>(i);
         } else {
           start[i] = col0;
           count[i] = ncols;
-          dst_stride[i] = column_stride;
+          col_dim = static_cast<int>(i);
         }
         break;
       case DimRole::outer:
@@ -684,45 +724,39 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
         break;
     }
   }
+  std::vector<std::size_t> raw_stride(ndims, 1);
   std::size_t total = 1;
-  for (size_t c : count) total *= c;
-  t_raw.resize(total);
+  for (std::size_t i = ndims; i-- > 0;) {
+    raw_stride[i] = total;
+    total *= count[i];
+  }
+  const std::size_t n_levels = vertical >= 0 ? count[vertical] : 1;
+  const std::size_t level_stride = vertical >= 0 ? raw_stride[vertical] : 0;
+  const std::size_t row_stride = row_dim >= 0 ? raw_stride[row_dim] : 0;
+  const std::size_t col_stride = col_dim >= 0 ? raw_stride[col_dim] : 0;
+  std::vector<std::size_t>& offsets = t_offsets;
+  offsets.resize(nrows * ncols);
+  for (std::size_t r = 0; r < nrows; ++r)
+    for (std::size_t x = 0; x < ncols; ++x) offsets[r * ncols + x] = r * row_stride + x * col_stride;
+
   const NcFile& file = impl.files[var.file];
+  const bool as_float = var.type == NC_FLOAT;
   {
     std::lock_guard<std::mutex> lock(d::netcdf_mutex());
-    int status = nc_get_vara_double(file.id(), var.varid, start.data(), count.data(), t_raw.data());
+    int status;
+    if (as_float) {
+      t_raw_float.resize(total);
+      status = nc_get_vara_float(file.id(), var.varid, start.data(), count.data(), t_raw_float.data());
+    } else {
+      t_raw_double.resize(total);
+      status = nc_get_vara_double(file.id(), var.varid, start.data(), count.data(), t_raw_double.data());
+    }
     if (status != NC_NOERR)
       throw InputError(file.path(), var.name, std::string("readable data (") + nc_strerror(status) +
                                                   "; is the file truncated?)");
   }
-  // Odometer over all but the last dimension; the last one runs in the inner loop.
-  const double* raw = t_raw.data();
-  const std::size_t last = ndims - 1;
-  const std::size_t inner = count[last];
-  const std::size_t inner_stride = dst_stride[last];
-  std::vector<std::size_t> index(ndims, 0);
-  const double scale = var.scale, offset = var.offset, lo = var.valid_min, hi = var.valid_max;
-  const std::vector<double>& fills = var.fills;
-  bool valid = false;
-  std::size_t base = 0;
-  for (std::size_t done = 0; done < total; done += inner) {
-    double* out = dst + base;
-    for (std::size_t j = 0; j < inner; ++j) {
-      double v = raw[j];
-      bool missing = std::isnan(v) || v < lo || v > hi;
-      for (double fill : fills) missing = missing || v == fill;
-      double si = missing ? kNaN : v * scale + offset;
-      valid = valid || !missing;
-      out[j * inner_stride] = si;
-    }
-    raw += inner;
-    for (std::size_t k = last; k-- > 0;) {  // advance the odometer
-      base += dst_stride[k];
-      if (++index[k] < count[k]) break;
-      base -= dst_stride[k] * count[k];
-      index[k] = 0;
-    }
-  }
+  const bool valid = as_float ? scatter(t_raw_float.data(), var, level_stride, n_levels, offsets, column_stride, dst)
+                              : scatter(t_raw_double.data(), var, level_stride, n_levels, offsets, column_stride, dst);
   any_valid = any_valid || valid;
 }
 
