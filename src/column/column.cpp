@@ -38,6 +38,7 @@ constexpr double kMinValidTempK = 150.0;  // METHODS "Quality control"
 constexpr double kMaxValidTempK = 350.0;
 constexpr double kMinRelativeHumidity = 1e-4;  // floor for zero/negative humidity (counted as clipped)
 constexpr double kNearThresholdK = 0.05;  // theta_w margin inside which a flag is decided by explicit ascent
+constexpr double kThetaTieK = 2e-3;       // theta_w differences below the tables' accuracy count as ties
 constexpr int kMinUsableLevels = 3;       // METHODS: fewer usable levels -> missing values
 constexpr double kNeutralBandKPerM = 0.1e-3;  // 0.1 K per km of layer thickness
 
@@ -334,18 +335,18 @@ struct ColumnAnalyzer::Impl {
     return out;
   }
 
-  // Lowest point at or above the LCL where the parcel is buoyant (theta_w > sat).
+  // Lowest point at or above the LCL where the parcel is buoyant (theta_w > sat). A saturated
+  // source level has zero excess at its own LCL; kThetaTieK keeps rounding from calling it buoyant.
   double find_lfc(const Parcel& pc) const {
+    const double theta = pc.theta_w - kThetaTieK;
     double s_start = pc.lcl_s;
     double best_gap = -std::numeric_limits<double>::infinity(), best_lnp = kNaN;
     for (int k = pc.lcl_seg; k + 1 < n_an; ++k, s_start = 0.0) {
       const Quadratic& q = segs[k].sat;
-      const double f0 = q.at(s_start);
-      if (f0 < pc.theta_w) return lnp_at(k, s_start);
-      if (segs[k].min_sat < pc.theta_w) {
+      if (q.at(s_start) < theta) return lnp_at(k, s_start);
+      if (segs[k].min_sat < theta) {
         double r[2];
-        const int n = q.roots(pc.theta_w, s_start, 1.0, r);
-        if (n > 0) return lnp_at(k, r[0]);
+        if (q.roots(theta, s_start, 1.0, r) > 0) return lnp_at(k, r[0]);
       }
       const double gap = pc.theta_w - q.min_on(s_start, 1.0);
       if (gap > best_gap) {
@@ -353,21 +354,22 @@ struct ColumnAnalyzer::Impl {
         best_lnp = lnp_at(k, 1.0);
       }
     }
-    // Flagged by the explicit excess but the parabola of saturation theta_w stays a hair above
-    // the parcel: the closest approach is the LFC.
+    // Flagged by the explicit excess while the parabola of saturation theta_w stays a hair
+    // above the parcel: the closest approach stands for the LFC.
     return best_lnp;
   }
 
   // Highest downward crossing of buoyancy below the top (the top if still buoyant there).
   double find_el(const Parcel& pc) const {
     const int top = n_an - 1;
-    if (levels[top].sat < pc.theta_w) return levels[top].lnp;
+    const double theta = pc.theta_w;
+    if (levels[top].sat < theta) return levels[top].lnp;
     for (int k = top - 1; k >= pc.lcl_seg; --k) {
       const double s_lo = (k == pc.lcl_seg) ? pc.lcl_s : 0.0;
       const Quadratic& q = segs[k].sat;
-      if (q.min_on(s_lo, 1.0) < pc.theta_w) {
+      if (q.min_on(s_lo, 1.0) < theta) {
         double r[2];
-        const int n = q.roots(pc.theta_w, s_lo, 1.0, r);
+        const int n = q.roots(theta, s_lo, 1.0, r);
         if (n > 0) return lnp_at(k, r[n - 1]);
         return lnp_at(k, s_lo);
       }
@@ -428,10 +430,7 @@ struct ColumnAnalyzer::Impl {
         });
     }
     const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
-    const double top = settings.top_pressure_pa;
     for (int i : order) {
-      // Without level fields only one level above the analysis top is needed (to interpolate the top).
-      if (!settings.level_fields && !levels.empty() && levels.back().p < top) break;
       const double pi = p[i], ti = in.temp_k[i], hi = in.humidity[i];
       if (!(pi > 0) || std::isnan(ti) || std::isnan(hi)) continue;
       if (has_surface && pi > in.surface_pressure_pa) continue;  // below ground
@@ -595,7 +594,7 @@ struct ColumnAnalyzer::Impl {
         res.mu_cin_j_kg = a.cin_j_kg;
         res.mu_lfc_pressure_pa = a.lfc_pressure_pa;
         res.mu_el_pressure_pa = a.el_pressure_pa;
-        res.mu_lift_to_lfc_pa = levels[mu].p - a.lfc_pressure_pa;
+        res.mu_lift_to_lfc_pa = std::max(0.0, levels[mu].p - a.lfc_pressure_pa);
         res.mu_lift_to_lfc_z_m = height_at_lnp(pc.lfc_lnp) - levels[mu].z;
         res.latent_class = static_cast<std::int8_t>(a.cape_j_kg > a.cin_j_kg ? LatentClass::real_latent
                                                                               : LatentClass::pseudo_latent);
@@ -608,7 +607,7 @@ struct ColumnAnalyzer::Impl {
     for (int k = 0; k < n_source; ++k) {
       const Parcel& pc = parcels[k];
       if (!pc.flagged) continue;
-      const double lift = levels[k].p - std::exp(pc.lfc_lnp);
+      const double lift = std::max(0.0, levels[k].p - std::exp(pc.lfc_lnp));
       if (std::isnan(res.easiest_lift_pa) || lift < res.easiest_lift_pa) {
         res.easiest_lift_pa = lift;
         res.easiest_lift_pressure_pa = levels[k].p;
