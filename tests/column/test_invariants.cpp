@@ -10,6 +10,7 @@
 #include <limits>
 #include <random>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "column/random_columns.hpp"
@@ -792,6 +793,40 @@ TEST(ColumnInvariants, PotentialInstabilityMarksThetaWDecreasingUpward) {
                     }
                   });
   EXPECT_GT(checked, 0);
+  EXPECT_EQ(failures, 0);
+}
+
+TEST(ColumnInvariants, AnalyzersInConcurrentThreadsMatchSerialResults) {
+  // One ColumnAnalyzer per thread over the shared (immutable) pseudo-adiabat table, as
+  // the grid driver does: results must equal a serial run.
+  const auto& columns = pool();
+  const AnalysisSettings s = settings_for(BuoyancyMode::virtual_temperature);
+  std::vector<std::vector<double>> serial(columns.size()), threaded(columns.size());
+  {
+    ColumnAnalyzer a(s);
+    ColumnResult r;
+    for (size_t i = 0; i < columns.size(); ++i) {
+      a.analyze(columns[i].view(), r);
+      serial[i] = outputs_of(r);
+    }
+  }
+  std::vector<std::thread> workers;
+  for (int t = 0; t < 4; ++t)
+    workers.emplace_back([&, t] {
+      ColumnAnalyzer a(s);
+      ColumnResult r;
+      for (size_t i = static_cast<size_t>(t); i < columns.size(); i += 4) {
+        a.analyze(columns[i].view(), r);
+        threaded[i] = outputs_of(r);
+      }
+    });
+  for (auto& w : workers) w.join();
+  long failures = 0;
+  for (size_t i = 0; i < columns.size(); ++i) {
+    int q = -1;
+    if (!identical(serial[i], threaded[i], &q) && failures++ < 5)
+      ADD_FAILURE() << describe(static_cast<int>(i), columns[i]) << ": output " << q << " differs";
+  }
   EXPECT_EQ(failures, 0);
 }
 

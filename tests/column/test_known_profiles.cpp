@@ -865,6 +865,21 @@ TEST(KnownProfiles, TemperatureOutside150To350KIsRejectedAndCounted) {
   }
 }
 
+TEST(KnownProfiles, NonFiniteHumidityMakesLevelUnusable) {
+  // METHODS: levels that hold missing values are unusable and excluded. An infinite
+  // specific humidity is no value either: the column must come out as if the level
+  // were missing, not with NaN spread into the column outputs.
+  OwnedColumn missing = as_specific_humidity(surface_based().column());
+  OwnedColumn infinite = missing;
+  const int k = 1;  // inside the source layer
+  missing.humidity[k] = kNaN;
+  infinite.humidity[k] = std::numeric_limits<double>::infinity();
+  const AnalysisSettings s = settings_for(BuoyancyMode::virtual_temperature);
+  const ColumnResult r0 = analyze_column(missing.view(), s), r1 = analyze_column(infinite.view(), s);
+  expect_same_outputs(r1, r0);
+  EXPECT_TRUE(std::isfinite(r1.mu_theta_w_k));
+}
+
 // ============================================================ CAPE convergence, classes
 
 TEST(KnownProfiles, CapeConvergesWhenSubstepsAreDoubled) {
