@@ -23,11 +23,12 @@ struct QuicklookSummary {
   double low = 0, step = 1;                  // colour bins: [low + k step, low + (k+1) step)
   int bins = 0;
   std::string valid_time;                    // "2031-07-14 06:00 UTC" or the raw time value
-  std::string world_file, prj_file;          // written beside the PNG when the grid is regular; else empty
+  std::string world_file, prj_file, aux_file;  // beside the PNG when the grid is regular; else empty
 };
 
-/// Renders the field (missing cells hatched grey) to png_path; a .pgw world file and .prj (ESRI WKT)
-/// beside it when the grid is regular in a CRS ESRI WKT can express. Non-regular grids (unstructured,
+/// Renders the field (missing cells hatched grey) to png_path; when the grid is regular, a .pgw world
+/// file, a .prj (ESRI WKT, where ESRI WKT can express the CRS) and GDAL's .png.aux.xml (WKT2) beside it.
+/// Non-regular grids (unstructured,
 /// curvilinear) are drawn on a lon/lat grid by nearest cell.
 QuicklookSummary quicklook_file(const std::string& input, const std::string& png_path, const QuicklookOptions& options);
 

@@ -38,9 +38,10 @@ int run_quicklook(const QuicklookArgs& args) {
     if (!s.classes)
       std::printf("  colour steps: %d from %.10g to %.10g (step %.10g)\n", s.bins, s.low, s.low + s.bins * s.step, s.step);
     if (!s.world_file.empty())
-      std::printf("  world file %s and %s\n", s.world_file.c_str(), s.prj_file.c_str());
+      std::printf("  georeferenced by %s%s%s and %s\n", s.world_file.c_str(), s.prj_file.empty() ? "" : ", ",
+                  s.prj_file.c_str(), s.aux_file.c_str());
     else
-      std::printf("  no world file: the grid is not regular in a CRS ESRI WKT can express (reproject it first)\n");
+      std::printf("  no world file: the grid is not regular (reproject it first for a georeferenced image)\n");
   }
   return 0;
 }

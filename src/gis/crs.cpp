@@ -381,6 +381,17 @@ std::shared_ptr<const Crs::Impl> describe(PJ_CONTEXT* context, PJ* input, const 
   impl->definition = impl->wkt;
   impl->esri_wkt = take_string(proj_as_wkt(context, pj, PJ_WKT1_ESRI, options));
   impl->proj_string = take_string(proj_as_proj_string(context, pj, PJ_PROJ_4, nullptr));
+  PjPtr cs(proj_crs_get_coordinate_system(context, pj));
+  if (cs) {
+    const char *axis_name = nullptr, *abbreviation = nullptr, *direction = nullptr, *unit = nullptr,
+               *unit_auth = nullptr, *unit_code = nullptr;
+    double factor = 1;
+    if (proj_cs_get_axis_info(context, cs.get(), 0, &axis_name, &abbreviation, &direction, &factor, &unit,
+                              &unit_auth, &unit_code)) {
+      std::string d = take_string(direction);
+      impl->northing_first = d == "north" || d == "south";
+    }
+  }
   PjPtr operation(proj_crs_get_coordoperation(context, pj));  // null unless derived (projected, rotated)
   // The unrotated lon/lat: a derived geographic CRS (rotated pole) is itself geodetic, so take its base.
   PjPtr geodetic(impl->geographic && operation ? proj_get_source_crs(context, pj)

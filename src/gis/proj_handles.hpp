@@ -45,6 +45,7 @@ struct Crs::Impl {
   std::string definition;  // text PROJ parses back into this CRS (WKT2 or PROJ string)
   std::string name, wkt, esri_wkt, proj_string;
   bool geographic = false, rotated = false;
+  bool northing_first = false;  // the CRS's first axis points north/south (e.g. EPSG:4326 lat, lon)
   AttributeList cf;  // CF grid_mapping parameters (without crs_wkt)
   std::string geodetic_definition;
 };

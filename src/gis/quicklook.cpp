@@ -13,6 +13,7 @@
 #include "gis/font.hpp"
 #include "gis/netcdf_file.hpp"
 #include "gis/png_image.hpp"
+#include "gis/proj_handles.hpp"
 #include "gis/resample.hpp"
 #include "gis/source_grid.hpp"
 #include "latentlift/errors.hpp"
@@ -381,22 +382,33 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   temporary += ".tmp";
   write_png(temporary.string(), image);
   fs::rename(temporary, png);
-  if (raster.georeferenced && raster.crs && !raster.crs->esri_wkt().empty()) {
+  if (raster.georeferenced && raster.crs) {
+    // World file: pixel size and the map coordinates of the top-left pixel's centre (ESRI convention).
     double a = raster.dx / s, e = -raster.dy / s;
     double c = raster.west + 0.5 * a - a * map_x, f = raster.north + 0.5 * e - e * map_y;
-    fs::path world = png, prj = png;
+    fs::path world = png, prj = png, aux = png;
     world.replace_extension(".pgw");
     prj.replace_extension(".prj");
+    aux += ".aux.xml";
     std::ofstream out(world);
     char line[64];
     for (double v : {a, 0.0, 0.0, e, c, f}) {
       std::snprintf(line, sizeof line, "%.12f\n", v);
       out << line;
     }
-    std::ofstream(prj) << raster.crs->esri_wkt() << "\n";
+    out.close();
     if (!out) throw Error(world.string() + ": cannot write");
     summary.world_file = world.string();
-    summary.prj_file = prj.string();
+    if (!raster.crs->esri_wkt().empty()) {
+      std::ofstream(prj) << raster.crs->esri_wkt() << "\n";
+      summary.prj_file = prj.string();
+    }
+    // GDAL's sidecar (PAM) carries the CRS as WKT2, rotated poles included; world-file x/y are easting, northing.
+    std::string wkt;
+    for (char ch : raster.crs->wkt()) wkt += ch == '&' ? "&amp;" : ch == '<' ? "&lt;" : ch == '>' ? "&gt;" : std::string(1, ch);
+    std::ofstream(aux) << "<PAMDataset>\n  <SRS dataAxisToSRSAxisMapping=\""
+                       << (raster.crs->impl().northing_first ? "2,1" : "1,2") << "\">" << wkt << "</SRS>\n</PAMDataset>\n";
+    summary.aux_file = aux.string();
   }
   summary.width = width;
   summary.height = height;

@@ -1,0 +1,346 @@
+// latentlift reproject: GDAL reads the outputs as georeferenced rasters; values agree with the
+// source; interpolation error within the analytic bound; classes stay classes.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <filesystem>
+#include <set>
+#include <string>
+
+#include "gis/netcdf_file.hpp"
+#include "gis_test_helpers.hpp"
+#include "latentlift/crs.hpp"
+
+namespace latentlift::test {
+namespace {
+
+namespace fs = std::filesystem;
+using gis::detail::NcFile;
+
+constexpr double kPi = 3.14159265358979323846;
+constexpr double kFloatFill = 9.969209968386869e36;  // NC_FILL_FLOAT (netCDF-C documentation)
+
+struct Field {
+  std::vector<double> x, y, values;  // values [time][y][x] as stored
+  double fill = 0;
+};
+
+Field read_field(const std::string& path, const std::string& name, const std::string& xname,
+                 const std::string& yname) {
+  NcFile file = NcFile::open(path);
+  Field f;
+  f.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
+  f.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
+  auto var = *gis::detail::find_variable(file, name);
+  f.values = gis::detail::read_doubles(file, var);
+  f.fill = gis::detail::number_attribute(file, var.id, "_FillValue")->front();
+  return f;
+}
+
+std::string reproject(const std::string& input, const std::string& output, const std::string& options) {
+  auto result = run_command(binary() + " reproject " + input + " -o " + output + " " + options);
+  EXPECT_EQ(result.exit_code, 0) << result.output;
+  return result.output;
+}
+
+// gdalinfo -json of one variable: size, geotransform and whether the CRS WKT contains `crs_text`
+// (double quotes in crs_text escaped for the shell).
+struct GdalInfo {
+  std::vector<double> numbers;  // width height gt0..gt5 has_crs
+};
+GdalInfo gdal_info(const std::string& path, const std::string& variable, const std::string& crs_text) {
+  auto result = run_command("gdalinfo -json NETCDF:" + path + ":" + variable + " | " + python() + " -c \"" +
+                            "import json,sys; d=json.load(sys.stdin); print(*d['size'], *d['geoTransform'], int('" +
+                            crs_text + "' in d['coordinateSystem']['wkt']))\"");
+  EXPECT_EQ(result.exit_code, 0) << result.output;
+  return {numbers_of(result.output)};
+}
+
+TEST(Reproject, GdalReadsUtmOutputWithExpectedCrsSizeAndGeotransform) {
+  std::string dir = scratch_dir("reproject_utm");
+  std::string in = make_cf_grid(dir, "lambert_conformal_conic");
+  std::string out = dir + "/utm.nc";
+  reproject(in, out, "--crs EPSG:32633 --resolution 10000 --bbox 100000,4850000,400000,5100000");
+  GdalInfo info = gdal_info(out, "mu_cape", "UTM zone 33N");
+  ASSERT_EQ(info.numbers.size(), 9u);
+  EXPECT_EQ(info.numbers[0], 30);  // (400 - 100) km / 10 km
+  EXPECT_EQ(info.numbers[1], 25);  // (5100 - 4850) km / 10 km
+  const double expected[6] = {100000, 10000, 0, 5100000, 0, -10000};  // GDAL geotransform: west, dx, 0, north, 0, -dy
+  for (int k = 0; k < 6; ++k) EXPECT_NEAR(info.numbers[2 + k], expected[k], 1e-6) << k;
+  EXPECT_EQ(info.numbers[8], 1) << "CRS is not UTM zone 33N";
+}
+
+TEST(Reproject, GdalReadsLatLonOutputOfARotatedPoleGridAsWgs84) {
+  std::string dir = scratch_dir("reproject_rotated");
+  std::string in = make_cf_grid(dir, "rotated_latitude_longitude");
+  std::string out = dir + "/ll.nc";
+  reproject(in, out, "--crs EPSG:4326 --resolution 0.25 --bbox 0,40,20,60");
+  GdalInfo info = gdal_info(out, "latent_class", "ID[\\\"EPSG\\\",4326]");
+  ASSERT_EQ(info.numbers.size(), 9u);
+  EXPECT_EQ(info.numbers[0], 80);
+  EXPECT_EQ(info.numbers[1], 80);
+  const double expected[6] = {0, 0.25, 0, 60, 0, -0.25};
+  for (int k = 0; k < 6; ++k) EXPECT_NEAR(info.numbers[2 + k], expected[k], 1e-9) << k;
+  EXPECT_EQ(info.numbers[8], 1) << "CRS is not EPSG:4326";
+}
+
+TEST(Reproject, GdallocationinfoReturnsTheSourceValueOfTheNearestCell) {
+  // Nearest-cell resampling: at target cell centres GDAL must report the value of the source cell
+  // nearest (in the rotated grid) to that centre, found here independently with latentlift's CRS only.
+  std::string dir = scratch_dir("reproject_location");
+  std::string in = make_cf_grid(dir, "rotated_latitude_longitude");
+  std::string out = dir + "/ll.nc";
+  const double west = 0, south = 44, cell = 0.2;
+  reproject(in, out, "--crs EPSG:4326 --resolution 0.2 --bbox 0,44,14,52 --method nearest");
+  Field source = read_field(in, "latent_layer_depth", "rlon", "rlat");
+  NcFile file = NcFile::open(in);
+  auto crs = gis::Crs::from_grid_mapping(
+      gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id), in, "crs");
+  gis::Transformer to_rotated(gis::Crs::wgs84(), crs);
+  int compared = 0;
+  for (auto [si, sj] : {std::pair{3, 3}, {10, 8}, {20, 15}, {5, 12}, {16, 4}, {22, 16}}) {
+    // A source cell's position, moved to the centre of the target cell holding it.
+    double lon = source.x[si], lat = source.y[sj];
+    to_rotated.inverse(&lon, &lat, 1);
+    lon = west + (std::floor((lon - west) / cell) + 0.5) * cell;
+    lat = south + (std::floor((lat - south) / cell) + 0.5) * cell;
+    char where[64];
+    std::snprintf(where, sizeof where, "%.9f %.9f", lon, lat);
+    auto result = run_command("gdallocationinfo -valonly -wgs84 NETCDF:" + out + ":latent_layer_depth " + where);
+    ASSERT_EQ(result.exit_code, 0) << result.output;
+    double x = lon, y = lat;
+    to_rotated.forward(&x, &y, 1);
+    long i = std::lround((x - source.x[0]) / (source.x[1] - source.x[0]));
+    long j = std::lround((y - source.y[0]) / (source.y[1] - source.y[0]));
+    ASSERT_TRUE(i >= 0 && j >= 0 && i < long(source.x.size()) && j < long(source.y.size()));
+    double expected = source.values[j * source.x.size() + i];  // time 0
+    if (expected == source.fill) continue;
+    EXPECT_FLOAT_EQ(std::stod(result.output), expected) << where;
+    ++compared;
+  }
+  EXPECT_GE(compared, 5);
+}
+
+// f(x, y) = 1000 + 500 sin(x / lx) cos(y / ly), as written by make_cf_grid.py (time 0), x/y in degrees.
+double analytic(double lon, double lat, double lx, double ly) {
+  return 1000.0 + 500.0 * std::sin(lon / lx) * std::cos(lat / ly);
+}
+
+// Bilinear interpolation of a C2 function on an hx x hy cell errs by at most
+// hx^2/8 max|f_xx| + hy^2/8 max|f_yy| (linear interpolation error h^2/8 max|f''|, applied along each
+// axis; common practice). Here max|f_xx| <= 500/lx^2, max|f_yy| <= 500/ly^2. Storage is float32:
+// a relative 6e-8 of ~1500 adds 1e-4; 1e-3 is allowed for it.
+double bilinear_bound(double h, double lx, double ly) {
+  return h * h / 8.0 * 500.0 / (lx * lx) + h * h / 8.0 * 500.0 / (ly * ly) + 1e-3;
+}
+
+TEST(Reproject, BilinearErrorOfASmoothFieldIsWithinTheInterpolationBound) {
+  std::string dir = scratch_dir("reproject_bilinear");
+  // Source: lon 0..11.5, lat 40..48.5 every 0.5 degree, no grid_mapping (EPSG:4326); lx = 4, ly = 4.5.
+  std::string in = make_cf_grid(dir, "none", "--lx 4 --ly 4.5");
+  std::string out = dir + "/fine.nc";
+  reproject(in, out, "--crs EPSG:4326 --resolution 0.1 --bbox -1,39,13,50");
+  Field f = read_field(out, "mu_cape", "lon", "lat");
+  double bound = bilinear_bound(0.5, 4.0, 4.5), worst = 0;
+  std::size_t inside = 0;
+  for (std::size_t j = 0; j < f.y.size(); ++j)
+    for (std::size_t i = 0; i < f.x.size(); ++i) {
+      double v = f.values[j * f.x.size() + i];
+      bool within = f.x[i] >= 0 && f.x[i] <= 11.5 && f.y[j] >= 40 && f.y[j] <= 48.5;
+      if (!within) {
+        EXPECT_EQ(v, f.fill) << "outside the source grid at " << f.x[i] << " " << f.y[j];
+        continue;
+      }
+      ASSERT_NE(v, f.fill) << "missing inside the source grid at " << f.x[i] << " " << f.y[j];
+      worst = std::max(worst, std::fabs(v - analytic(f.x[i], f.y[j], 4.0, 4.5)));
+      ++inside;
+    }
+  EXPECT_GT(inside, 5000u);
+  EXPECT_LE(worst, bound);
+  EXPECT_GT(worst, 0.05 * bound) << "suspiciously exact: is it interpolating at all?";
+}
+
+TEST(Reproject, BilinearErrorInWebMercatorIsWithinTheInterpolationBound) {
+  std::string dir = scratch_dir("reproject_mercator");
+  std::string in = make_cf_grid(dir, "none", "--lx 4 --ly 4.5");
+  std::string out = dir + "/merc.nc";
+  reproject(in, out, "--crs EPSG:3857 --resolution 5000");
+  Field f = read_field(out, "mu_cape", "x", "y");
+  // Spherical (Web) Mercator inverse on R = 6378137 m: lon = x / R, lat = atan(sinh(y / R))
+  // (Snyder 1987, eqs. 7-10 and 7-12; EPSG Guidance Note 7-2 method 1024).
+  const double R = 6378137.0, bound = bilinear_bound(0.5, 4.0, 4.5);
+  double worst = 0;
+  std::size_t inside = 0;
+  for (std::size_t j = 0; j < f.y.size(); ++j)
+    for (std::size_t i = 0; i < f.x.size(); ++i) {
+      double lon = f.x[i] / R * 180.0 / kPi, lat = std::atan(std::sinh(f.y[j] / R)) * 180.0 / kPi;
+      double v = f.values[j * f.x.size() + i];
+      bool within = lon > 1e-9 && lon < 11.5 - 1e-9 && lat > 40 + 1e-9 && lat < 48.5 - 1e-9;
+      if (!within) continue;
+      ASSERT_NE(v, f.fill) << lon << " " << lat;
+      worst = std::max(worst, std::fabs(v - analytic(lon, lat, 4.0, 4.5)));
+      ++inside;
+    }
+  EXPECT_GT(inside, 1000u);
+  EXPECT_LE(worst, bound);
+}
+
+TEST(Reproject, BilinearIsMissingNextToAMissingSourceCell) {
+  // latent_layer_depth is missing at source columns i < 2 and rows j < 2 (lon <= 0.5, lat <= 40.5):
+  // any target cell whose lower-left neighbour is such a cell (lon < 1, lat < 41) must be missing.
+  std::string dir = scratch_dir("reproject_missing");
+  std::string in = make_cf_grid(dir, "none");
+  std::string out = dir + "/fine.nc";
+  reproject(in, out, "--crs EPSG:4326 --resolution 0.1 --bbox 0,40,3,43");
+  Field f = read_field(out, "latent_layer_depth", "lon", "lat");
+  for (std::size_t j = 0; j < f.y.size(); ++j)
+    for (std::size_t i = 0; i < f.x.size(); ++i) {
+      double v = f.values[j * f.x.size() + i];
+      if (f.x[i] < 1.0 && f.y[j] < 41.0) {
+        EXPECT_EQ(v, f.fill) << f.x[i] << " " << f.y[j];
+      } else if (f.x[i] > 1.0 || f.y[j] > 41.0) {
+        EXPECT_NE(v, f.fill) << f.x[i] << " " << f.y[j];
+      }
+    }
+}
+
+std::set<double> values_of(const std::string& path, const std::string& xname, const std::string& yname) {
+  Field f = read_field(path, "latent_class", xname, yname);
+  std::set<double> out(f.values.begin(), f.values.end());
+  out.erase(f.fill);
+  return out;
+}
+
+TEST(Reproject, ClassesSurviveARoundTripWithOnlyValidClassValues) {
+  std::string dir = scratch_dir("reproject_classes");
+  std::string in = make_cf_grid(dir, "lambert_conformal_conic");
+  std::string utm = dir + "/utm.nc", back = dir + "/back.nc";
+  reproject(in, utm, "--crs EPSG:32633 --resolution 7000 --method bilinear");
+  reproject(utm, back, "--crs EPSG:4326 --resolution 0.05");
+  for (const auto& [path, x, y] : {std::tuple{utm, "x", "y"}, std::tuple{back, "lon", "lat"}}) {
+    std::set<double> values = values_of(path, x, y);
+    EXPECT_EQ(values, (std::set<double>{0, 1, 2})) << path;
+    NcFile file = NcFile::open(path);
+    auto var = *gis::detail::find_variable(file, "latent_class");
+    EXPECT_EQ(var.type, NC_BYTE);
+    EXPECT_EQ(gis::detail::text_attribute(file, var.id, "flag_meanings").value_or(""),
+              "none pseudo_latent real_latent");
+    EXPECT_EQ(gis::detail::text_attribute(file, var.id, "resampling").value_or(""), "nearest");
+  }
+}
+
+TEST(Reproject, UnstructuredGridUsesTheNearestCellAndIsMissingFarAway) {
+  std::string dir = scratch_dir("reproject_unstructured");
+  std::string in = make_cf_grid(dir, "unstructured");
+  std::string out = dir + "/ll.nc";
+  reproject(in, out, "--crs EPSG:4326 --resolution 0.25 --bbox -5,35,17,54");
+  NcFile source = NcFile::open(in);
+  auto values = gis::detail::read_doubles(source, *gis::detail::find_variable(source, "mu_cape"));
+  std::set<float> source_values(values.begin(), values.end());
+  Field f = read_field(out, "mu_cape", "lon", "lat");
+  std::size_t valid = 0;
+  for (std::size_t j = 0; j < f.y.size(); ++j)
+    for (std::size_t i = 0; i < f.x.size(); ++i) {
+      double v = f.values[j * f.x.size() + i];
+      bool far = f.x[i] < -2 || f.x[i] > 14 || f.y[j] < 38 || f.y[j] > 51;
+      if (far) {
+        EXPECT_EQ(v, f.fill) << f.x[i] << " " << f.y[j];
+      }
+      if (v == f.fill) continue;
+      EXPECT_TRUE(source_values.count(static_cast<float>(v))) << "not a source value: " << v;
+      ++valid;
+    }
+  EXPECT_GT(valid, 1000u);
+  auto bilinear = run_command(binary() + " reproject " + in + " -o " + dir + "/b.nc --resolution 0.25 --method bilinear");
+  EXPECT_EQ(bilinear.exit_code, 2) << bilinear.output;
+}
+
+TEST(Reproject, AnalyzeOutputOpensInGdalWithTheModelCrsAndGrid) {
+  std::string sample = test_dir() + "/../sample_grids/vessaline_coast_lcc.nc";
+  if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid";
+  std::string dir = scratch_dir("analyze_gdal");
+  std::string out = dir + "/out.nc";
+  auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
+  ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
+  Field f = read_field(out, "mu_cape", "x", "y");
+  GdalInfo info = gdal_info(out, "mu_cape", "Lambert Conic Conformal (2SP)");
+  ASSERT_EQ(info.numbers.size(), 9u);
+  double dx = f.x[1] - f.x[0], dy = std::fabs(f.y[1] - f.y[0]);
+  EXPECT_EQ(info.numbers[0], f.x.size());
+  EXPECT_EQ(info.numbers[1], f.y.size());
+  EXPECT_NEAR(info.numbers[2], f.x.front() - dx / 2, 1e-6);
+  EXPECT_NEAR(info.numbers[3], dx, 1e-9);
+  EXPECT_NEAR(info.numbers[5], std::max(f.y.front(), f.y.back()) + dy / 2, 1e-6);
+  EXPECT_NEAR(info.numbers[7], -dy, 1e-9);
+  EXPECT_EQ(info.numbers[8], 1) << "CRS is not the model's Lambert conformal conic";
+}
+
+TEST(Reproject, GdallocationinfoOnAnalyzeOutputMatchesTheColumnCommand) {
+  std::string sample = test_dir() + "/../sample_grids/vessaline_coast_lcc.nc";
+  if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid";
+  std::string dir = scratch_dir("analyze_column");
+  std::string out = dir + "/out.nc";
+  auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
+  ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
+  NcFile file = NcFile::open(out);
+  auto mapping_var = gis::detail::text_attribute(file, gis::detail::find_variable(file, "mu_cape")->id, "grid_mapping");
+  auto mapping = gis::detail::read_attributes(file, gis::detail::find_variable(file, *mapping_var)->id);
+  Field f = read_field(out, "mu_cape", "x", "y");
+  int compared = 0;
+  for (auto [i, j] : {std::pair{20, 15}, {40, 33}, {61, 50}, {70, 10}}) {
+    // Cell centre in lat/lon (the model's sphere; -wgs84 passes lat/lon through unchanged).
+    auto ll = gis::latlon_of_projected(mapping, {f.x[i]}, {f.y[j]});
+    char where[96];
+    std::snprintf(where, sizeof where, "%.9f %.9f", ll.longitude_deg[0], ll.latitude_deg[0]);
+    auto gdal = run_command("gdallocationinfo -valonly -wgs84 NETCDF:" + out + ":mu_cape " + where);
+    ASSERT_EQ(gdal.exit_code, 0) << gdal.output;
+    std::snprintf(where, sizeof where, "--lat %.9f --lon %.9f", ll.latitude_deg[0], ll.longitude_deg[0]);
+    auto column = run_command(binary() + " column " + sample + " " + where + " --format json");
+    ASSERT_EQ(column.exit_code, 0) << column.output;
+    auto key = column.output.find("\"mu_cape\":");
+    ASSERT_NE(key, std::string::npos) << column.output;
+    std::string text = column.output.substr(key + 10, column.output.find_first_of(",\n", key) - key - 10);
+    double stored = f.values[j * f.x.size() + i];
+    if (text.find("null") != std::string::npos) {
+      EXPECT_EQ(stored, f.fill);
+      continue;
+    }
+    EXPECT_FLOAT_EQ(std::stod(gdal.output), stored) << "GDAL located another cell than " << i << "," << j;
+    EXPECT_NEAR(std::stod(gdal.output), std::stod(text), 0.006) << "cell " << i << "," << j;  // column prints 2 decimals
+    ++compared;
+  }
+  EXPECT_GE(compared, 2);
+}
+
+TEST(Reproject, UnknownCrsIsAUsageErrorAndLeavesNoFile) {
+  std::string dir = scratch_dir("reproject_bad_crs");
+  std::string in = make_cf_grid(dir, "lambert_conformal_conic");
+  auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --crs EPSG:999999 --resolution 1");
+  EXPECT_EQ(result.exit_code, 2) << result.output;
+  EXPECT_NE(result.output.find("EPSG:999999"), std::string::npos) << result.output;
+  EXPECT_FALSE(fs::exists(dir + "/x.nc"));
+}
+
+TEST(Reproject, ExistingOutputNeedsOverwrite) {
+  std::string dir = scratch_dir("reproject_overwrite");
+  std::string in = make_cf_grid(dir, "none");
+  std::string out = dir + "/ll.nc";
+  reproject(in, out, "--resolution 1");
+  auto again = run_command(binary() + " reproject " + in + " -o " + out + " --resolution 1");
+  EXPECT_EQ(again.exit_code, 2) << again.output;
+  reproject(in, out, "--resolution 1 --overwrite");
+  for (const auto& entry : fs::directory_iterator(dir))
+    EXPECT_EQ(entry.path().filename().string().find(".tmp"), std::string::npos) << entry.path();
+}
+
+TEST(Reproject, MalformedBboxIsAUsageError) {
+  std::string dir = scratch_dir("reproject_bbox");
+  std::string in = make_cf_grid(dir, "none");
+  for (const char* bbox : {"1,2,3", "10,40,0,50", "a,b,c,d"}) {
+    auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --resolution 1 --bbox " + bbox);
+    EXPECT_EQ(result.exit_code, 2) << bbox << ": " << result.output;
+  }
+}
+
+}  // namespace
+}  // namespace latentlift::test
