@@ -2,7 +2,7 @@
 """Write small NetCDF inputs in every input shape latentlift accepts, and beside each one
 the same columns in the kernel's own terms (expected_<shape>.nc), for the end-to-end tests.
 
-Usage: /usr/bin/python3 make_shapes.py OUTPUT_DIR [SHAPE... | errors]
+Usage: /usr/bin/python3 make_shapes.py OUTPUT_DIR [SHAPE... | errors | split_time]
 
 Every shape encodes one underlying state (a few columns: warm moist, capped, cold stable,
 a plateau with levels below ground) in a different convention. expected_<shape>.nc holds, per
@@ -439,6 +439,30 @@ def write_errors(out_dir):
     ds.close()
 
 
+def write_time_split(out_dir):
+    """plain_latlon.nc cut into one file per time step: split_t0.nc, split_t1.nc."""
+    src = netCDF4.Dataset(os.path.join(out_dir, "plain_latlon.nc"))
+    for t in range(len(src.dimensions["time"])):
+        dst = netCDF4.Dataset(os.path.join(out_dir, f"split_t{t}.nc"), "w", format="NETCDF4")
+        for k in src.ncattrs():
+            dst.setncattr(k, src.getncattr(k))
+        for name, dim in src.dimensions.items():
+            dst.createDimension(name, 1 if name == "time" else len(dim))
+        for name, var in src.variables.items():
+            var.set_auto_maskandscale(False)
+            attrs = {k: var.getncattr(k) for k in var.ncattrs()}
+            out = dst.createVariable(name, var.dtype, var.dimensions, fill_value=attrs.pop("_FillValue", None))
+            out.set_auto_maskandscale(False)
+            out.setncatts(attrs)
+            if "time" in var.dimensions:
+                index = tuple(slice(t, t + 1) if d == "time" else slice(None) for d in var.dimensions)
+                out[:] = var[index]
+            else:
+                out[:] = var[:]
+        dst.close()
+    src.close()
+
+
 def main():
     out_dir = sys.argv[1]
     wanted = set(sys.argv[2:])            # shape names and/or "errors"; nothing: everything
@@ -448,6 +472,10 @@ def main():
             write_shape(shape, out_dir)
     if not wanted or "errors" in wanted:
         write_errors(out_dir)
+    if not wanted or "split_time" in wanted:
+        if wanted:
+            write_shape(SHAPES[0], out_dir)
+        write_time_split(out_dir)
 
 
 if __name__ == "__main__":

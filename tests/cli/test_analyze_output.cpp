@@ -49,6 +49,20 @@ TEST(AnalyzeOutput, SmallBlocksGiveBitwiseIdenticalFields) {
     EXPECT_TRUE(read_raw(a, name) == read_raw(b, name)) << "variable " << name << " differs";
 }
 
+TEST(AnalyzeOutput, TimeStepsSplitAcrossFilesGiveTheSameFieldsAsOneFile) {
+  std::string dir = test_scratch();
+  make_shapes(dir, "split_time");
+  std::string one = analyze_shape(dir, "plain_latlon", "one", "");
+  std::string split = dir + "/out_split.nc";
+  CommandResult r = run_command(binary() + " analyze " + quote(dir + "/split_t0.nc") + " " + quote(dir + "/split_t1.nc") +
+                                " -o " + quote(split) + " --quiet");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  NcFile a(one), b(split);
+  EXPECT_EQ(a.var_names(), b.var_names());
+  for (const auto& name : a.var_names())
+    EXPECT_TRUE(read_raw(a, name) == read_raw(b, name)) << "variable " << name << " differs";
+}
+
 TEST(AnalyzeOutput, NcdumpReadsHeaderWithEveryFieldAndCfConventions) {
   std::string dir = test_scratch();
   make_shapes(dir, "plain_latlon");
