@@ -185,7 +185,8 @@ def analyse(col, run):
         usable &= col.p <= col.psfc
     nan = np.full(n, np.nan)
     lev = {k: nan.copy() for k in ("tw", "theta_w", "theta_w_star", "p_lcl", "t_lcl", "max_excess",
-                                   "flag", "lfc", "el", "cape", "cin")}
+                                   "flag", "lfc", "el", "cape", "cin", "stability", "stability_margin",
+                                   "potential")}
     colres = {k: math.nan for k in ("tangent_theta_w_k", "tangent_pressure_pa", "mu_pressure_pa",
                                     "mu_theta_w_k", "mu_cape_j_kg", "mu_cin_j_kg", "mu_lfc_pressure_pa",
                                     "mu_el_pressure_pa", "mu_lift_to_lfc_pa", "mu_lift_to_lfc_z_m",
@@ -357,6 +358,41 @@ def analyse(col, run):
         lev["t_lcl"][k] = t_l[j]
         for key in ("max_excess", "flag", "lfc", "el", "cape", "cin"):
             lev[key][k] = asc[j][key]
+
+    # Static stability of the layer from each level to the next input level above (graphical
+    # method, METHODS): dry adiabat (kappa = Rd/cpd) and pseudo-adiabat from the bottom to the
+    # top pressure, neutral bands of 0.1 K per km of thickness. stability_margin: distance (K)
+    # of the environment from the nearest decision boundary.
+    order = [i for i in np.argsort(-col.p) if np.isfinite(col.p[i])]
+    pairs = [(b, a) for b, a in zip(order[:-1], order[1:]) if usable[b] and usable[a]]
+    if pairs:
+        bot = np.array([b for b, _ in pairs])
+        top = np.array([a for _, a in pairs])
+        moist = Pseudoadiabats(col.t[bot], np.log(col.p[bot]), np.log(col.p[top])).end
+        for n_pair, (b, a) in enumerate(pairs):
+            t_dry = col.t[b] * (col.p[a] / col.p[b]) ** (RD / CPD)
+            band = 0.1 * (col.z[a] - col.z[b]) / 1000.0
+            d_dry = col.t[a] - t_dry
+            d_moist = col.t[a] - moist[n_pair]
+            in_dry, in_moist = abs(d_dry) <= band, abs(d_moist) <= band
+            if in_dry and in_moist:
+                cls = 3 if abs(d_moist) < abs(d_dry) else 4
+            elif in_dry:
+                cls = 4
+            elif in_moist:
+                cls = 3
+            elif d_moist > band:
+                cls = 0
+            elif d_dry < -band:
+                cls = 2
+            else:
+                cls = 1
+            margins = [abs(abs(d_dry) - band), abs(abs(d_moist) - band)]
+            if in_dry and in_moist:
+                margins.append(abs(abs(d_moist) - abs(d_dry)))
+            lev["stability"][b] = cls
+            lev["stability_margin"][b] = min(margins)
+            lev["potential"][b] = 1 if lev["theta_w"][a] < lev["theta_w"][b] else 0
 
     def height_at(x):
         if not np.all(np.isfinite(z)):

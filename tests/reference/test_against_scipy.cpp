@@ -582,6 +582,63 @@ TEST(ScipyReference, ColumnFieldsAgreeWithOtherSettings) {
   check_column_fields("alt");
 }
 
+TEST(ScipyReference, StaticStabilityClassesAgree) {
+  // Graphical method of METHODS (dry adiabat and pseudo-adiabat from the bottom of each layer,
+  // neutral bands of 0.1 K/km); a class may differ only where the environment lies within the
+  // pseudo-adiabat tolerance of a decision boundary.
+  REQUIRE_REFERENCE();
+  int compared = 0, near_boundary = 0;
+  for (const ColumnRef& col : reference().columns) {
+    const ModeRef& ref = col.modes.at("virtual");
+    if (ref.get("skipped") == 1.0) continue;
+    const ColumnResult res = analyze_column(input_of(col), settings_for("virtual"));
+    for (size_t i = 0; i < col.p.size(); ++i) {
+      const LevelRef& lr = ref.levels[i];
+      const std::string where = at(col, "virtual", static_cast<int>(i));
+      const int cls = res.levels.stability_class[i];
+      if (std::isnan(lr.get("stability"))) {
+        EXPECT_EQ(cls, kByteMissing) << where << ": no layer above (or a level unusable)";
+        continue;
+      }
+      ++compared;
+      if (cls != static_cast<int>(lr.get("stability"))) {
+        if (lr.get("stability_margin") < kThetaTolK) {
+          ++near_boundary;
+          continue;
+        }
+        ADD_FAILURE() << where << ": stability class " << cls << ", reference " << lr.get("stability")
+                      << " (margin " << lr.get("stability_margin") << " K)";
+      }
+    }
+  }
+  std::cout << "[reference] stability classes: " << compared << " compared, " << near_boundary
+            << " differing within " << kThetaTolK << " K of a boundary" << std::endl;
+  EXPECT_GT(compared, 0);
+}
+
+TEST(ScipyReference, PotentialInstabilityAgrees) {
+  // theta_w decreasing upward across the layer (METHODS).
+  REQUIRE_REFERENCE();
+  int compared = 0;
+  for (const ColumnRef& col : reference().columns) {
+    const ModeRef& ref = col.modes.at("virtual");
+    if (ref.get("skipped") == 1.0) continue;
+    const ColumnResult res = analyze_column(input_of(col), settings_for("virtual"));
+    for (size_t i = 0; i < col.p.size(); ++i) {
+      const LevelRef& lr = ref.levels[i];
+      const std::string where = at(col, "virtual", static_cast<int>(i));
+      const int pot = res.levels.potential_instability[i];
+      if (std::isnan(lr.get("potential"))) {
+        EXPECT_EQ(pot, kByteMissing) << where;
+        continue;
+      }
+      ++compared;
+      EXPECT_EQ(pot, static_cast<int>(lr.get("potential"))) << where;
+    }
+  }
+  EXPECT_GT(compared, 0);
+}
+
 TEST(ScipyReference, TopDownLevelOrderGivesTheSameResults) {
   // ColumnInput accepts either vertical order (column.hpp): the reference columns reversed.
   REQUIRE_REFERENCE();
