@@ -83,6 +83,30 @@ int run_column(const ColumnArgs& args) {
       best = c;
     }
   }
+  // A point outside the grid has a nearest column, but not a meaningful one: refuse it when
+  // it lies farther than 1.5 grid spacings (distance from the nearest column to its neighbours).
+  double spacing = 0.0;
+  auto consider = [&](std::size_t other) {
+    if (other < lats.size() && other != best && !std::isnan(lats[other]) && !std::isnan(lons[other]))
+      spacing = std::max(spacing, central_angle(lats[best], lons[best], lats[other], lons[other]));
+  };
+  if (grid.horizontal.size() == 2) {
+    const std::size_t nx = grid.horizontal[1].length;
+    if (best % nx > 0) consider(best - 1);
+    if (best % nx + 1 < nx) consider(best + 1);
+    if (best >= nx) consider(best - nx);
+    consider(best + nx);
+  } else {
+    double nearest = std::numeric_limits<double>::infinity();
+    for (std::size_t c = 0; c < lats.size(); ++c)
+      if (c != best && !std::isnan(lats[c]) && !std::isnan(lons[c]))
+        nearest = std::min(nearest, central_angle(lats[best], lons[best], lats[c], lons[c]));
+    if (std::isfinite(nearest)) spacing = nearest;
+  }
+  if (spacing > 0.0 && best_angle > 1.5 * spacing)
+    throw UsageError("--lat " + number(args.lat, 4) + " --lon " + number(args.lon, 4) + ": outside the grid of " +
+                     args.input + " (nearest column " + number(best_angle * 6371.0, 1) + " km away)");
+
   // The first step of the chosen time (other outer dimensions at index 0).
   std::size_t step = 0;
   for (std::size_t s = 0; s < grid.n_steps; ++s)
