@@ -654,6 +654,69 @@ TEST(KnownProfiles, ParcelArrivingWarmAtItsLclIsFlaggedWithLfcAtLcl) {
   EXPECT_EQ(r.levels.latent_flag[0], 1);
 }
 
+// ============================================================ deep instability
+
+// Profile "deep": the environment lies on pseudo-adiabats that get colder upward all
+// the way to the analysis top, theta_w_star = 295.15 K - 0.005 K/hPa (1000 hPa - p),
+// saturated at 1000 hPa and RH 90 % above. Every parcel of the source layer has a
+// theta_w above the theta_w_star of the top (290.65 K) and is flagged, so the layer
+// runs through the whole source layer and ends at its last level, 700 hPa (METHODS:
+// "a layer that reaches the edge of the source layer ends at its last level"); the
+// surface parcel (theta_w 295.15 K) is still buoyant at the top, so its EL is the top
+// and its CAPE is truncated there.
+constexpr double kThetaDeep = 295.15;
+
+Sounding deep() {
+  Sounding s;
+  for (double p : levels_hpa()) {
+    const double t = on_adiabat(kThetaDeep - 0.005 * (1000.0 - p), p);
+    s.add(p, t, p == 1000.0 ? t : dew_point_at_rh(t, 0.9));
+  }
+  return s;
+}
+
+TEST(KnownProfiles, LayerReachingSourceLayerEdgeEndsAtItsLastLevel) {
+  const Sounding s = deep();
+  const OwnedColumn c = s.column();
+  for (BuoyancyMode mode : kModes) {
+    SCOPED_TRACE(to_string(mode));
+    const ColumnResult r = analyze_column(c.view(), settings_for(mode));
+    for (int k = 0; k < c.n(); ++k)
+      if (s.p_hpa[k] >= 700.0) EXPECT_EQ(r.levels.latent_flag[k], 1) << "level " << s.p_hpa[k];
+    EXPECT_NEAR(r.latent_layer_bottom_pa, 100000.0, 1e-6);
+    EXPECT_NEAR(r.latent_layer_top_pa, 70000.0, 1e-6);
+    EXPECT_NEAR(r.latent_layer_depth_pa, 30000.0, 1e-6);
+  }
+}
+
+TEST(KnownProfiles, ParcelStillBuoyantAtTopHasItsElAtTheTop) {
+  const OwnedColumn c = deep().column();
+  for (BuoyancyMode mode : kModes) {
+    SCOPED_TRACE(to_string(mode));
+    const AnalysisSettings st = settings_for(mode);
+    const ColumnResult r = analyze_column(c.view(), st);
+    EXPECT_EQ(r.mu_pressure_pa, 100000.0);
+    EXPECT_NEAR(r.mu_el_pressure_pa, st.top_pressure_pa, 1e-6);
+    const double expected = independent_cape(c, kThetaDeep, 100000.0, st.top_pressure_pa,
+                                             mode == BuoyancyMode::virtual_temperature);
+    EXPECT_NEAR(r.mu_cape_j_kg, expected, 0.005 * expected);
+    std::printf("[ cape ] deep profile, mode %s: kernel %.1f J/kg, independent %.1f J/kg (truncated at the top)\n",
+                to_string(mode), r.mu_cape_j_kg, expected);
+  }
+}
+
+TEST(KnownProfiles, LowerAnalysisTopTruncatesCape) {
+  // The same parcel with the analysis top at 300 hPa: EL at 300 hPa, CAPE integrated
+  // to 300 hPa only.
+  const OwnedColumn c = deep().column();
+  AnalysisSettings st = settings_for(BuoyancyMode::temperature);
+  st.top_pressure_pa = 30000.0;
+  const ColumnResult r = analyze_column(c.view(), st);
+  EXPECT_NEAR(r.mu_el_pressure_pa, 30000.0, 1e-6);
+  const double expected = independent_cape(c, kThetaDeep, 100000.0, 30000.0, false);
+  EXPECT_NEAR(r.mu_cape_j_kg, expected, 0.005 * expected);
+}
+
 // ============================================================ below ground
 
 /// The "surface-based" column with levels 1000 and 975 hPa made unusable in one of
