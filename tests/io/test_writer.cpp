@@ -168,5 +168,48 @@ TEST_F(Writer, WritesOnlyTheChosenTimeSteps) {
   nc_close(ncid);
 }
 
+TEST_F(Writer, GivesLatLonInputWithoutGridMappingTheWgs84GridMapping) {
+  test::write_nc(input_path, grid.dims, grid.standard());  // no grid_mapping
+  InputDataset input({input_path}, {});
+  OutputWriter(output_path, input, {}).commit({});
+  int ncid = -1, crs = -1, cape = -1;
+  ASSERT_EQ(nc_open(output_path.c_str(), NC_NOWRITE, &ncid), NC_NOERR);
+  ASSERT_EQ(nc_inq_varid(ncid, "crs", &crs), NC_NOERR);
+  EXPECT_EQ(text_att(ncid, crs, "grid_mapping_name"), "latitude_longitude");  // CF 1.8 Appendix F
+  double semi_major = 0;
+  nc_get_att_double(ncid, crs, "semi_major_axis", &semi_major);
+  EXPECT_EQ(semi_major, 6378137.0);  // WGS 84 ellipsoid (NIMA TR8350.2)
+  nc_inq_varid(ncid, "mu_cape", &cape);
+  EXPECT_EQ(text_att(ncid, cape, "grid_mapping"), "crs");
+  nc_close(ncid);
+}
+
+TEST_F(Writer, CarriesOtherOuterDimensionsLikeTime) {
+  test::Dims dims = {{"time", 2}, {"member", 3}, {"level", 4}, {"lat", 3}, {"lon", 4}};
+  std::vector<std::string> order = {"time", "member", "level", "lat", "lon"};
+  std::vector<test::Var> vars = grid.coordinates();
+  vars.push_back({"member", NC_INT, {"member"}, {{"long_name", "ensemble member"}}, {0, 1, 2}});
+  vars.push_back({"t", NC_FLOAT, order, {{"units", "K"}, {"standard_name", "air_temperature"}}, test::fill(dims, order, SmallGrid::temp_k)});
+  vars.push_back({"q", NC_FLOAT, order, {{"units", "1"}, {"standard_name", "specific_humidity"}}, test::fill(dims, order, SmallGrid::q)});
+  vars.push_back({"z", NC_FLOAT, order, {{"units", "m"}, {"standard_name", "geopotential_height"}}, test::fill(dims, order, SmallGrid::z_m)});
+  test::write_nc(input_path, dims, vars);
+  InputDataset input({input_path}, {});
+  EXPECT_EQ(input.grid().n_steps, 6u);
+  OutputWriter writer(output_path, input, {});
+  EXPECT_EQ(writer.n_steps(), 6u);
+  writer.commit({});
+  int ncid = -1, cape = -1, member = -1;
+  ASSERT_EQ(nc_open(output_path.c_str(), NC_NOWRITE, &ncid), NC_NOERR);
+  nc_inq_varid(ncid, "mu_cape", &cape);
+  int ndims = 0, dimids[4];
+  nc_inq_var(ncid, cape, nullptr, nullptr, &ndims, dimids, nullptr);
+  ASSERT_EQ(ndims, 4);
+  char name[NC_MAX_NAME + 1];
+  nc_inq_dimname(ncid, dimids[1], name);
+  EXPECT_STREQ(name, "member");
+  EXPECT_EQ(nc_inq_varid(ncid, "member", &member), NC_NOERR);
+  nc_close(ncid);
+}
+
 }  // namespace
 }  // namespace latentlift
