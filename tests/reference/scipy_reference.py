@@ -526,7 +526,27 @@ def invented_columns(rng):
     t = lapse_profile(313.0, 99000.0, 9.4, 215.0)
     t = np.where(p < 60000.0, lapse_profile(313.0 * (0.6 / 0.99) ** (RD * 9.4e-3 / G0), 60000.0, 7.0, 215.0), t)
     make("invented_dry_desert", "relative_humidity", t, 0.08 + 0.1 * x, psfc=99000.0)
+    # Polar night: very cold surface under a strong inversion (theta_w far below -20 degC).
+    t = np.where(p >= 85000.0, 236.0 + (101000.0 - p) / 16000.0 * 20.0,
+                 np.maximum(256.0 * (p / 85000.0) ** (RD * 5.5e-3 / G0), 200.0))
+    make("invented_polar_night", "specific_humidity", t, 0.7 + 0.2 * x)
+    # Hot and humid: theta_w above 30 degC near the surface.
+    t = lapse_profile(307.0, 101000.0, 5.6, 198.0)
+    make("invented_hot_humid", "dew_point", t, 0.4 + 0.3 * x ** 4)
     return cols
+
+
+def high_pressure_column(rng):
+    """Deep anticyclone over a low-lying basin: surface at 1055 hPa, levels from 1050 hPa."""
+    levels = [1050, 1025] + STANDARD_HPA
+    p = np.array(levels, float) * 100.0
+    t = np.maximum(288.0 * (p / 105500.0) ** (RD * 6.5e-3 / G0), 216.0) + rng.normal(0.0, 0.3, len(p))
+    t = np.where(p >= 95000.0, t - 3.0 * (p - 95000.0) / 10500.0, t)    # cool, stable surface layer
+    rh = np.clip(0.5 + 0.3 * (p / 1e5) ** 4, 0.05, 1.0)
+    e = rh * es_pa(t)
+    r = mixing_ratio(e, p)
+    z = heights_hypsometric(p, t, r, -400.0)
+    return [Column("invented_high_pressure", "invented", p, t, r / (1 + r), "specific_humidity", z, 105500.0)]
 
 
 COARSE_HPA = [1000, 925, 850, 700, 500, 400, 300, 250, 200, 150, 100]
@@ -745,7 +765,7 @@ def main():
     if os.environ.get("LATENTLIFT_REFERENCE_RANDOM"):
         count, seed = (int(v) for v in os.environ["LATENTLIFT_REFERENCE_RANDOM"].split())
     rng = np.random.default_rng(seed)
-    cols = invented_columns(rng) + random_columns(rng, count) + arm_columns(real_dir) + ecmwf_columns(real_dir)
+    cols = invented_columns(rng) + high_pressure_column(rng) + random_columns(rng, count) + arm_columns(real_dir) + ecmwf_columns(real_dir)
     lcl_rows = []
     for p_hpa in (1000.0, 900.0, 800.0):
         for tc in (-10.0, 0.0, 10.0, 20.0, 30.0, 40.0):
