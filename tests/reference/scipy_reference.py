@@ -174,6 +174,29 @@ def vapour_pressure(col):
     return e
 
 
+def qc_counts(col):
+    """Quality-control counts (METHODS): levels with finite values at or above the ground."""
+    p, t, h = col.p, col.t, col.hum
+    ok = np.isfinite(p) & np.isfinite(t) & np.isfinite(h)
+    if col.psfc is not None and np.isfinite(col.psfc) and col.psfc > 0:
+        ok &= p <= col.psfc
+    in_range = ok & (t >= 150.0) & (t <= 350.0)
+    with np.errstate(invalid="ignore"):
+        esat = es_pa(t)
+        if col.kind == "specific_humidity":
+            clipped = (h > EPS * esat / (p - (1 - EPS) * esat)) | (h < 0)
+        elif col.kind == "mixing_ratio":
+            clipped = (h > EPS * esat / (p - esat)) | (h < 0)
+        elif col.kind == "relative_humidity":
+            clipped = (h > 1.0) | (h < 0)
+        else:
+            clipped = np.zeros(len(p), bool)
+        corrected = (h > t) if col.kind == "dew_point" else np.zeros(len(p), bool)
+    return {"qc_temperature_rejected": int(np.sum(ok & ~in_range)),
+            "qc_humidity_clipped": int(np.sum(in_range & clipped)),
+            "qc_dew_point_corrected": int(np.sum(in_range & corrected))}
+
+
 def analyse(col, run):
     """METHODS definitions; returns (per-level dict of arrays, column dict)."""
     mode, analysis_top_pa, source_layer_pa, min_excess_k = RUNS[run]
@@ -194,6 +217,7 @@ def analyse(col, run):
                                     "latent_layer_depth_pa", "latent_layer_depth_z_m",
                                     "latent_layer_bottom_pa", "latent_layer_top_pa")}
     colres["skipped"] = 1
+    colres.update(qc_counts(col))
     if usable.sum() < 3:
         return lev, colres
     colres["skipped"] = 0
@@ -475,7 +499,7 @@ def invented_columns(rng):
 
     def make(name, kind, t, rh, psfc=None, z0=0.0, noise=0.3):
         t = t + rng.normal(0.0, noise, len(t))
-        rh = np.clip(rh + rng.normal(0.0, 0.03, len(rh)), 0.02, 1.0)
+        rh = np.clip(rh + rng.normal(0.0, 0.03, len(rh)), 0.02, 1.05)   # RH > 100 % gets clipped
         e = rh * es_pa(t)
         r = mixing_ratio(e, p)
         z = heights_hypsometric(p, t, r, z0)

@@ -639,6 +639,29 @@ TEST(ScipyReference, PotentialInstabilityAgrees) {
   EXPECT_GT(compared, 0);
 }
 
+TEST(ScipyReference, QualityControlCountsAgree) {
+  // Injected faults (random columns) and clipped RH (invented cloudy column): a temperature
+  // outside 150-350 K, a dew point above the temperature, humidity above saturation.
+  REQUIRE_REFERENCE();
+  long rejected = 0, clipped = 0, corrected = 0;
+  for (const ColumnRef& col : reference().columns) {
+    const ModeRef& ref = col.modes.at("virtual");
+    if (ref.get("skipped") == 1.0) continue;
+    const ColumnResult res = analyze_column(input_of(col), settings_for("virtual"));
+    EXPECT_EQ(res.qc.temperature_rejected, ref.get("qc_temperature_rejected")) << col.name;
+    EXPECT_EQ(res.qc.humidity_clipped, ref.get("qc_humidity_clipped")) << col.name;
+    EXPECT_EQ(res.qc.dew_point_corrected, ref.get("qc_dew_point_corrected")) << col.name;
+    rejected += res.qc.temperature_rejected;
+    clipped += res.qc.humidity_clipped;
+    corrected += res.qc.dew_point_corrected;
+  }
+  std::cout << "[reference] QC counts over all columns: temperature rejected " << rejected
+            << ", humidity clipped " << clipped << ", dew point corrected " << corrected << std::endl;
+  EXPECT_GT(rejected, 0);
+  EXPECT_GT(clipped, 0);
+  EXPECT_GT(corrected, 0);
+}
+
 TEST(ScipyReference, TopDownLevelOrderGivesTheSameResults) {
   // ColumnInput accepts either vertical order (column.hpp): the reference columns reversed.
   REQUIRE_REFERENCE();
