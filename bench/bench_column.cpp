@@ -8,6 +8,7 @@
 // Target (issue 2): >= 300,000 columns/s per core, virtual mode, 2-D outputs only.
 #include <benchmark/benchmark.h>
 
+#include <cmath>
 #include <random>
 #include <vector>
 
@@ -57,6 +58,13 @@ void BM_AnalyzeColumn(benchmark::State& state) {
     ++i;
   }
   state.SetItemsProcessed(state.iterations());
+  // pool composition: the CAPE/CIN integration runs only for columns whose MU parcel is flagged
+  long flagged = 0;
+  for (const auto& c : columns) {
+    analyzer.analyze(c.view(), result);
+    flagged += std::isfinite(result.mu_lfc_pressure_pa) ? 1 : 0;
+  }
+  state.counters["mu_flagged_share"] = static_cast<double>(flagged) / static_cast<double>(columns.size());
   state.counters["columns_per_s"] = benchmark::Counter(static_cast<double>(state.iterations()),
                                                        benchmark::Counter::kIsRate);
   state.SetLabel(std::string(latentlift::to_string(s.buoyancy)) + (s.level_fields ? " +level fields" : " 2-D") +

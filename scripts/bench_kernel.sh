@@ -26,10 +26,11 @@ ctx = data["context"]
 print()
 print(f"summary ({ctx.get('num_cpus')} CPUs at {ctx.get('mhz_per_cpu')} MHz, "
       f"load average {', '.join(f'{x:.1f}' for x in ctx.get('load_avg', []))}):")
-print(f"  {'case':<40} {'columns/s per core':>20} {'us/column':>10}")
+print(f"  {'case':<40} {'columns/s per core':>20} {'us/column':>10} {'MU flagged':>11}")
 for b in data["benchmarks"]:
     rate = b.get("items_per_second", 0.0)
-    print(f"  {b.get('label', b['name']):<40} {rate:>20,.0f} {1e6 / rate if rate else float('nan'):>10.2f}")
+    share = b.get("mu_flagged_share", float("nan"))
+    print(f"  {b.get('label', b['name']):<40} {rate:>20,.0f} {1e6 / rate if rate else float('nan'):>10.2f} {share:>10.0%}")
 main = [b for b in data["benchmarks"] if b.get("label", "").startswith("virtual 2-D, 37")]
 if main:
     rate = main[0]["items_per_second"]
