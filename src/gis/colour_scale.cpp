@@ -39,12 +39,53 @@ std::uint8_t to_byte(double c) { return static_cast<std::uint8_t>(std::lround(st
 
 }  // namespace
 
+namespace {
+
+// The design path at u in [0, 1]: L* = 20 + 72 u, hue 290 - 190 u degrees (blue-violet through
+// cyan and green to yellow), chroma 24 up to u = 0.45 and rising as 24 + 50 ((u - 0.45) / 0.55)^1.5:
+// the sRGB gamut is narrowest for dark blue-cyan (about 27), and this path stays inside it with a
+// margin of about 3 units. The chroma reduction below is a safeguard only. Returns CIELAB and linear RGB.
+void design_path(double u, double lab[3], double rgb[3]) {
+  double L = 20.0 + 72.0 * u, hue = (290.0 - 190.0 * u) * kPi / 180.0;
+  double chroma = 24.0 + 50.0 * std::pow(std::max(0.0, (u - 0.45) / 0.55), 1.5);
+  while (!lab_to_linear_rgb(L, chroma * std::cos(hue), chroma * std::sin(hue), rgb) && chroma > 0.0) chroma -= 0.25;
+  lab[0] = L;
+  lab[1] = chroma * std::cos(hue);
+  lab[2] = chroma * std::sin(hue);
+}
+
+// Cumulative CIE 1976 colour difference along the design path at 1024 + 1 samples, normalised to 1:
+// equal steps of t are then equal colour differences (perceptually even steps).
+const std::vector<double>& arc_length() {
+  static const std::vector<double> table = [] {
+    const int n = 1024;
+    std::vector<double> s(n + 1, 0.0);
+    double previous[3], lab[3], rgb[3];
+    design_path(0.0, previous, rgb);
+    for (int k = 1; k <= n; ++k) {
+      design_path(static_cast<double>(k) / n, lab, rgb);
+      s[k] = s[k - 1] + std::sqrt((lab[0] - previous[0]) * (lab[0] - previous[0]) +
+                                  (lab[1] - previous[1]) * (lab[1] - previous[1]) +
+                                  (lab[2] - previous[2]) * (lab[2] - previous[2]));
+      std::copy(lab, lab + 3, previous);
+    }
+    for (double& v : s) v /= s[n];
+    return s;
+  }();
+  return table;
+}
+
+}  // namespace
+
 Rgb sequential_colour(double t) {
   t = std::clamp(t, 0.0, 1.0);
-  double L = 20.0 + 72.0 * t, hue = (285.0 - 190.0 * t) * kPi / 180.0, chroma = 38.0 + 40.0 * t;
-  double rgb[3];
-  while (!lab_to_linear_rgb(L, chroma * std::cos(hue), chroma * std::sin(hue), rgb) && chroma > 0.0)
-    chroma -= 0.25;  // keep lightness and hue, give up chroma to stay in gamut
+  const auto& s = arc_length();
+  const int n = static_cast<int>(s.size()) - 1;
+  int k = static_cast<int>(std::upper_bound(s.begin(), s.end(), t) - s.begin()) - 1;
+  k = std::clamp(k, 0, n - 1);
+  double u = (k + (s[k + 1] > s[k] ? (t - s[k]) / (s[k + 1] - s[k]) : 0.0)) / n;
+  double lab[3], rgb[3];
+  design_path(u, lab, rgb);
   return {to_byte(gamma_encode(rgb[0])), to_byte(gamma_encode(rgb[1])), to_byte(gamma_encode(rgb[2]))};
 }
 

@@ -1,6 +1,6 @@
 // Internal: latentlift's colour scales. Continuous fields: a sequential scale whose CIELAB
-// lightness rises linearly (perceptually even steps) while the hue turns from blue-violet to
-// yellow; classes: a fixed categorical palette.
+// lightness rises steadily while the hue turns from blue-violet to yellow, spaced by equal colour
+// differences (perceptually even steps); classes: a fixed categorical palette.
 #pragma once
 
 #include <array>
@@ -10,8 +10,10 @@
 
 namespace latentlift::gis::detail {
 
-/// The sequential scale at t in [0, 1]: CIELAB L* = 20 + 72 t, hue 285 - 190 t degrees, chroma 38 + 40 t
-/// reduced where needed to stay inside sRGB (CIE 1976 L*a*b*, D65; sRGB per IEC 61966-2-1).
+/// The sequential scale at t in [0, 1]. Design path u in [0, 1]: CIELAB L* = 20 + 72 u, hue 290 - 190 u
+/// degrees, chroma 24 rising to 74 in the light half, inside sRGB (CIE 1976 L*a*b*, D65; sRGB per
+/// IEC 61966-2-1); t is the CIE 1976 colour difference along that path, normalised, so equal steps
+/// of t look equally different.
 Rgb sequential_colour(double t);
 /// n discrete colours of the scale, at the bin centres t = (k + 0.5) / n.
 std::vector<Rgb> sequential_steps(int n);
