@@ -35,16 +35,24 @@ class Table {
   /// theta_w (K) of the pseudo-adiabat whose saturated virtual temperature at ln p equals tv_k.
   double theta_w_from_virtual_k(double tv_k, double ln_pressure_pa, double* dtheta_dtv = nullptr) const;
 
-  /// Both inverses at once (shares the ln p stencil): theta_w through temp_k, and through
-  /// saturated virtual temperature tv_k (with d(theta_w)/d(Tv) in *dtheta_dtv).
-  void theta_w_pair(double temp_k, double tv_k, double ln_pressure_pa, double* theta_from_t,
-                    double* theta_from_tv, double* dtheta_dtv) const;
+  /// The tables cut at one pressure (interpolated in ln p once): the same values as the
+  /// 2-D look-ups at that pressure, for the many look-ups of a grid's fixed levels.
+  struct Row {
+    std::vector<double> theta_of_t, theta_of_tv, t_of_theta, tv_of_theta;
+  };
+  void cut(double ln_pressure_pa, Row& row) const;
+  /// theta_w (K) through temp_k at the row's pressure; *dtheta_dt gets the slope if given.
+  double theta_w_k(const Row& row, double temp_k, double* dtheta_dt = nullptr) const;
+  /// theta_w (K) through saturated virtual temperature tv_k at the row's pressure.
+  double theta_w_from_virtual_k(const Row& row, double tv_k, double* dtheta_dtv = nullptr) const;
 
   /// A pseudo-adiabat fixed once, for a run of look-ups along one parcel ascent.
   class Curve {
    public:
     double temperature_k(double ln_pressure_pa) const;
     double virtual_temperature_k(double ln_pressure_pa) const;
+    double temperature_k(const Row& at) const;          // at a cut pressure
+    double virtual_temperature_k(const Row& at) const;
    private:
     friend class Table;
     const Table* table_ = nullptr;

@@ -22,6 +22,9 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
+#include <cstring>
+#include <deque>
 #include <limits>
 #include <numeric>
 #include <stdexcept>
@@ -125,12 +128,46 @@ struct Level {
   double sat;           // saturation theta_w in the buoyancy mode (parcel buoyant iff theta_w > sat)
   double sat_eps;       // the same for an excess of min_excess_k
   double theta_w_star;  // from the temperature (tangent adiabat, level fields)
+  const Table::Row* row;  // the tables cut at this pressure (null: use 2-D look-ups)
 };
 
 // The environment between levels k and k+1 at fraction s of the layer in ln p.
 struct Segment {
+  const Table::Row* mid_row;    // the tables cut at the layer midpoint (or null)
   Quadratic sat, sat_eps;
   double min_sat, min_sat_eps;  // over the whole layer
+};
+
+// Cuts of the pseudo-adiabat tables at the pressures met so far. A grid's columns share
+// their pressure levels (and so the layer midpoints and the analysis top), so after the
+// first columns every look-up at a level is a 1-D interpolation along a cut.
+class RowCache {
+ public:
+  const Table::Row* find(double lnp, const Table& table) {
+    std::uint64_t key;
+    std::memcpy(&key, &lnp, sizeof key);
+    std::uint64_t h = key * 0x9E3779B97F4A7C15ull;
+    for (std::size_t probe = 0; probe < kSlots; ++probe) {
+      const std::size_t slot = ((h >> 40) + probe) & (kSlots - 1);
+      if (slots_[slot] < 0) {
+        if (rows_.size() >= kMaxRows) return nullptr;  // not a fixed-level grid: 2-D look-ups
+        slots_[slot] = static_cast<int>(rows_.size());
+        keys_[slot] = key;
+        rows_.emplace_back();
+        table.cut(lnp, rows_.back());
+        return &rows_.back();
+      }
+      if (keys_[slot] == key) return &rows_[static_cast<std::size_t>(slots_[slot])];
+    }
+    return nullptr;
+  }
+
+ private:
+  static constexpr std::size_t kSlots = 1024;
+  static constexpr std::size_t kMaxRows = 256;  // about 1.8 MB of cuts per analyzer
+  std::vector<int> slots_ = std::vector<int>(kSlots, -1);
+  std::vector<std::uint64_t> keys_ = std::vector<std::uint64_t>(kSlots, 0);
+  std::deque<Table::Row> rows_;  // stable addresses
 };
 
 struct Parcel {
@@ -176,12 +213,14 @@ struct ColumnAnalyzer::Impl {
   const Table& table = Table::instance();
   bool virtual_mode;
 
+  RowCache row_cache;
   std::vector<Level> levels;       // usable levels, bottom up; [0, n_an) form the analysis column
   int n_an = 0;                    // analysis levels (p >= top, plus an interpolated top level)
   std::vector<Segment> segs;       // n_an - 1 layers
   std::vector<double> suffix_eps;  // min of sat_eps over layers k.. top
   std::vector<Parcel> parcels;     // one per level (filled lazily: source layer, or all with level fields)
-  std::vector<int> order;
+  std::vector<int> order;          // input indices, bottom up
+  std::vector<int> rank_of_input;  // input index -> position in order
   std::vector<int> position_of_input;  // input index -> position in levels (-1 unusable)
   int n_source = 0;
   int n_input = 0;
@@ -220,9 +259,12 @@ struct ColumnAnalyzer::Impl {
   }
   // Saturation theta_w of environment temperature t (and mixing ratio r) at lnp, for buoyancy;
   // *slope gets d(sat)/d(temperature) for the threshold of min_excess_k.
-  double saturation_theta_w(double t, double r, double lnp, double* slope) const {
-    if (virtual_mode) return table.theta_w_from_virtual_k(thermo::virtual_temperature_k(t, r), lnp, slope);
-    return table.theta_w_k(t, lnp, slope);
+  double saturation_theta_w(double t, double r, double lnp, const Table::Row* row, double* slope) const {
+    if (virtual_mode) {
+      const double tv = thermo::virtual_temperature_k(t, r);
+      return row ? table.theta_w_from_virtual_k(*row, tv, slope) : table.theta_w_from_virtual_k(tv, lnp, slope);
+    }
+    return row ? table.theta_w_k(*row, t, slope) : table.theta_w_k(t, lnp, slope);
   }
 
   // ------------------------------------------------------------ parcels
@@ -233,6 +275,12 @@ struct ColumnAnalyzer::Impl {
       return virtual_mode ? thermo::virtual_temperature_k(t, src.r) : t;
     }
     return virtual_mode ? curve.virtual_temperature_k(lnp) : curve.temperature_k(lnp);
+  }
+  // The same at a level or layer midpoint whose table cut may be cached.
+  double parcel_buoyancy_temp(const Parcel& pc, const Table::Curve& curve, double lnp,
+                              const Table::Row* row) const {
+    if (lnp > pc.lcl_lnp || !row) return parcel_buoyancy_temp(pc, curve, lnp);
+    return virtual_mode ? curve.virtual_temperature_k(*row) : curve.temperature_k(*row);
   }
 
   void init_parcel(int k) {
@@ -302,8 +350,13 @@ struct ColumnAnalyzer::Impl {
       return parcel_buoyancy_temp(pc, curve, x) - env_buoyancy_temp(k, s);
     };
     auto piece = [&](int k, double xa, double xb, double& ba) {
-      const double bm = buoyancy(k, 0.5 * (xa + xb));
-      const double bb = buoyancy(k, xb);
+      const bool whole_layer = xa == levels[k].lnp && xb == levels[k + 1].lnp;
+      const double xm = 0.5 * (xa + xb);
+      const double bm = whole_layer ? parcel_buoyancy_temp(pc, curve, xm, segs[k].mid_row) - env_buoyancy_temp(k, 0.5)
+                                    : buoyancy(k, xm);
+      const double bb = xb == levels[k + 1].lnp
+                            ? parcel_buoyancy_temp(pc, curve, xb, levels[k + 1].row) - env_buoyancy_temp(k, 1.0)
+                            : buoyancy(k, xb);
       const Quadratic q = Quadratic::through(ba, bm, bb);
       const double width = xa - xb;
       if (xa <= pc.lcl_lnp + 1e-12) {
@@ -432,7 +485,7 @@ struct ColumnAnalyzer::Impl {
     const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
     for (int i : order) {
       const double pi = p[i], ti = in.temp_k[i], hi = in.humidity[i];
-      if (!(pi > 0) || std::isnan(ti) || std::isnan(hi)) continue;
+      if (!(pi > 0) || !std::isfinite(pi) || !std::isfinite(ti) || !std::isfinite(hi)) continue;  // missing
       if (has_surface && pi > in.surface_pressure_pa) continue;  // below ground
       if (pi < Table::kPressureMinPa || pi > Table::kPressureMaxPa) continue;
       if (ti < kMinValidTempK || ti > kMaxValidTempK) {
@@ -509,12 +562,11 @@ struct ColumnAnalyzer::Impl {
     const double eps = settings.min_excess_k;
     for (int k = 0; k < n_an; ++k) {
       Level& lv = levels[k];
+      lv.row = row_cache.find(lv.lnp, table);
       double slope = 0;
-      if (virtual_mode) {
-        table.theta_w_pair(lv.t, lv.tv, lv.lnp, &lv.theta_w_star, &lv.sat, &slope);
-      } else {
-        lv.theta_w_star = lv.sat = table.theta_w_k(lv.t, lv.lnp, &slope);
-      }
+      lv.theta_w_star = lv.row ? table.theta_w_k(*lv.row, lv.t, virtual_mode ? nullptr : &slope)
+                               : table.theta_w_k(lv.t, lv.lnp, virtual_mode ? nullptr : &slope);
+      lv.sat = virtual_mode ? saturation_theta_w(lv.t, lv.r, lv.lnp, lv.row, &slope) : lv.theta_w_star;
       lv.sat_eps = lv.sat + eps * slope;
     }
     segs.resize(static_cast<size_t>(std::max(n_an - 1, 0)));
@@ -523,8 +575,10 @@ struct ColumnAnalyzer::Impl {
       const Level& a = levels[k];
       const Level& b = levels[k + 1];
       double slope = 0;
-      const double sat_m = saturation_theta_w(0.5 * (a.t + b.t), 0.5 * (a.r + b.r), 0.5 * (a.lnp + b.lnp), &slope);
       Segment& sg = segs[k];
+      const double lnp_m = 0.5 * (a.lnp + b.lnp);
+      sg.mid_row = row_cache.find(lnp_m, table);
+      const double sat_m = saturation_theta_w(0.5 * (a.t + b.t), 0.5 * (a.r + b.r), lnp_m, sg.mid_row, &slope);
       sg.sat = Quadratic::through(a.sat, sat_m, b.sat);
       sg.sat_eps = Quadratic::through(a.sat_eps, sat_m + eps * slope, b.sat_eps);
       sg.min_sat = sg.sat.min_on(0, 1);
@@ -649,6 +703,9 @@ struct ColumnAnalyzer::Impl {
   void fill_level_fields(ColumnResult& res) {
     LevelFields& lf = res.levels;
     const double kappa_dry = thermo::kKappaDry;
+    // Rank of each input level in bottom-up order: a layer exists only between neighbours.
+    rank_of_input.assign(order.size(), -1);
+    for (std::size_t r = 0; r < order.size(); ++r) rank_of_input[static_cast<std::size_t>(order[r])] = static_cast<int>(r);
     int prev_real = -1;  // position of the previous real level (bottom up)
     for (int k = 0; k < static_cast<int>(levels.size()); ++k) {
       const Level& lv = levels[k];
@@ -658,11 +715,14 @@ struct ColumnAnalyzer::Impl {
       compute_excess(pc);
       lf.dew_point_k[i] = thermo::dew_point_k(lv.e);
       lf.wet_bulb_potential_temperature_k[i] = in_table_range(pc.theta_w);
-      lf.wet_bulb_temperature_k[i] = std::min(lv.t, table.temperature_k(pc.theta_w, lv.lnp));
+      const double tw = k < n_an && lv.row ? table.curve(pc.theta_w).temperature_k(*lv.row)
+                                           : table.temperature_k(pc.theta_w, lv.lnp);
+      lf.wet_bulb_temperature_k[i] = std::min(lv.t, tw);
       lf.saturation_theta_w_k[i] = in_table_range(k < n_an ? lv.theta_w_star : table.theta_w_k(lv.t, lv.lnp));
       lf.max_parcel_excess_k[i] = pc.excess;
       lf.latent_flag[i] = pc.flagged ? 1 : 0;
-      if (prev_real >= 0) {
+      if (prev_real >= 0 && rank_of_input[static_cast<std::size_t>(levels[prev_real].index)] + 1 ==
+                                rank_of_input[i]) {
         // Layer from the previous real level (bottom) to this one (top).
         const Level& b = levels[prev_real];
         const size_t ib = static_cast<size_t>(b.index);

@@ -217,33 +217,6 @@ double Table::interp(const std::vector<double>& values, const Grid& gx, double x
   return v;
 }
 
-void Table::theta_w_pair(double temp_k, double tv_k, double ln_pressure_pa, double* theta_from_t,
-                         double* theta_from_tv, double* dtheta_dtv) const {
-  double ty;
-  const int iy = stencil(ln_pressure_pa, lnp_.x0, lnp_.dx, lnp_.nx, ty);
-  double wy[4];
-  cubic_weights(ty, wy);
-  const size_t stride = static_cast<size_t>(temp_.nx);  // temp_ and tv_ grids are the same
-  auto along = [&](const std::vector<double>& values, double x, double* slope) {
-    double tx;
-    const int ix = stencil(x, temp_.x0, temp_.dx, temp_.nx, tx);
-    const double* r0 = values.data() + static_cast<size_t>(iy) * stride + ix;
-    double col[4];
-    for (int k = 0; k < 4; ++k)
-      col[k] = wy[0] * r0[k] + wy[1] * r0[k + stride] + wy[2] * r0[k + 2 * stride] + wy[3] * r0[k + 3 * stride];
-    double wx[4];
-    cubic_weights(tx, wx);
-    if (slope) {
-      double dx[4];
-      cubic_derivative_weights(tx, dx);
-      *slope = (dx[0] * col[0] + dx[1] * col[1] + dx[2] * col[2] + dx[3] * col[3]) / temp_.dx;
-    }
-    return wx[0] * col[0] + wx[1] * col[1] + wx[2] * col[2] + wx[3] * col[3];
-  };
-  *theta_from_t = along(theta_of_t_, temp_k, nullptr);
-  *theta_from_tv = along(theta_of_tv_, tv_k, dtheta_dtv);
-}
-
 double Table::temperature_k(double theta_w_k, double ln_pressure_pa) const {
   return interp(t_of_theta_, theta_, theta_w_k, ln_pressure_pa, nullptr);
 }
@@ -267,6 +240,58 @@ Table::Curve Table::curve(double theta_w_k) const {
   c.i0_ = stencil(theta_w_k, theta_.x0, theta_.dx, theta_.nx, t);
   cubic_weights(t, c.w_);
   return c;
+}
+
+void Table::cut(double ln_pressure_pa, Row& row) const {
+  double ty;
+  const int iy = stencil(ln_pressure_pa, lnp_.x0, lnp_.dx, lnp_.nx, ty);
+  double wy[4];
+  cubic_weights(ty, wy);
+  auto cut_one = [&](const std::vector<double>& values, int nx, std::vector<double>& out) {
+    out.resize(static_cast<size_t>(nx));
+    const double* r0 = values.data() + static_cast<size_t>(iy) * nx;
+    for (int k = 0; k < nx; ++k)
+      out[k] = wy[0] * r0[k] + wy[1] * r0[k + nx] + wy[2] * r0[k + 2 * nx] + wy[3] * r0[k + 3 * nx];
+  };
+  cut_one(theta_of_t_, temp_.nx, row.theta_of_t);
+  cut_one(theta_of_tv_, tv_.nx, row.theta_of_tv);
+  cut_one(t_of_theta_, theta_.nx, row.t_of_theta);
+  cut_one(tv_of_theta_, theta_.nx, row.tv_of_theta);
+}
+
+namespace {
+// Cubic interpolation along one cut row (the second half of the 2-D look-up).
+inline double along_row(const std::vector<double>& row, double x0, double dx, int nx, double x, double* slope) {
+  double t;
+  const int i = stencil(x, x0, dx, nx, t);
+  const double* c = row.data() + i;
+  double w[4];
+  cubic_weights(t, w);
+  if (slope) {
+    double d[4];
+    cubic_derivative_weights(t, d);
+    *slope = (d[0] * c[0] + d[1] * c[1] + d[2] * c[2] + d[3] * c[3]) / dx;
+  }
+  return w[0] * c[0] + w[1] * c[1] + w[2] * c[2] + w[3] * c[3];
+}
+}  // namespace
+
+double Table::theta_w_k(const Row& row, double temp_k, double* dtheta_dt) const {
+  return along_row(row.theta_of_t, temp_.x0, temp_.dx, temp_.nx, temp_k, dtheta_dt);
+}
+
+double Table::theta_w_from_virtual_k(const Row& row, double tv_k, double* dtheta_dtv) const {
+  return along_row(row.theta_of_tv, tv_.x0, tv_.dx, tv_.nx, tv_k, dtheta_dtv);
+}
+
+double Table::Curve::temperature_k(const Row& at) const {
+  const double* c = at.t_of_theta.data() + i0_;
+  return w_[0] * c[0] + w_[1] * c[1] + w_[2] * c[2] + w_[3] * c[3];
+}
+
+double Table::Curve::virtual_temperature_k(const Row& at) const {
+  const double* c = at.tv_of_theta.data() + i0_;
+  return w_[0] * c[0] + w_[1] * c[1] + w_[2] * c[2] + w_[3] * c[3];
 }
 
 namespace {

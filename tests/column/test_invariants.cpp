@@ -767,23 +767,32 @@ TEST(ColumnInvariants, LargerMinExcessFlagsNoMoreLevels) {
 }
 
 TEST(ColumnInvariants, PotentialInstabilityMarksThetaWDecreasingUpward) {
-  // METHODS "Static stability": potential (convective) instability of the layer from
-  // a level to the next usable level above is 1 where theta_w decreases upward, else
-  // 0. Checked for the layers whose bottom lies at or below the analysis top.
-  long failures = 0, checked = 0;
+  // METHODS "Static stability": potential (convective) instability of the layer from a
+  // level to the next level above is 1 where theta_w decreases upward, else 0; like the
+  // stability class it is missing wherever either level of the layer is unusable.
+  long failures = 0, checked = 0, missing = 0;
   for_each_column(BuoyancyMode::virtual_temperature,
                   [&](int i, const OwnedColumn& c, const LevelView& v, const ColumnAnalyzer&,
                       const ColumnResult& r) {
                     if (v.n_usable < 3) return;
-                    std::vector<int> up;  // usable levels, bottom-up
+                    std::vector<int> up;  // every level with a pressure, bottom-up
                     for (int k = 0; k < c.n(); ++k)
-                      if (v.usable[k]) up.push_back(k);
+                      if (std::isfinite(c.pressure_pa[k])) up.push_back(k);
                     std::sort(up.begin(), up.end(), [&](int a, int b) { return c.pressure_pa[a] > c.pressure_pa[b]; });
                     for (size_t j = 0; j + 1 < up.size(); ++j) {
                       const int k = up[j], above = up[j + 1];
+                      if (!v.analysed[k]) continue;
+                      if (!v.usable[above]) {
+                        ++missing;
+                        if (r.levels.potential_instability[k] != kByteMissing && failures++ < 5)
+                          ADD_FAILURE() << describe(i, c) << " level " << c.pressure_pa[k]
+                                        << ": the level above is unusable, yet potential instability is "
+                                        << int(r.levels.potential_instability[k]);
+                        continue;
+                      }
                       const double tw = r.levels.wet_bulb_potential_temperature_k[k];
                       const double tw_above = r.levels.wet_bulb_potential_temperature_k[above];
-                      if (!v.analysed[k] || std::isnan(tw_above)) continue;
+                      if (std::isnan(tw_above)) continue;
                       ++checked;
                       const int expected = tw_above < tw ? 1 : 0;
                       if (r.levels.potential_instability[k] != expected && failures++ < 5)
@@ -793,6 +802,7 @@ TEST(ColumnInvariants, PotentialInstabilityMarksThetaWDecreasingUpward) {
                     }
                   });
   EXPECT_GT(checked, 0);
+  EXPECT_GT(missing, 0) << "the random columns should include unusable levels";
   EXPECT_EQ(failures, 0);
 }
 
