@@ -218,7 +218,7 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
       std::string calendar = coordinate ? text_attribute(file, coordinate->id, "calendar").value_or("") : "";
       valid_time = value ? format_time(*value, units, calendar) : "time index " + std::to_string(wanted);
     } else {
-      level_text += " " + dim + " " + (value ? format_value(*value) + (units.empty() ? "" : " " + units) : std::to_string(wanted));
+      level_text += ", " + dim + " " + (value ? format_value(*value) + (units.empty() ? "" : " " + units) : std::to_string(wanted));
     }
   }
   if (!has_time && options.time_index != 0) throw UsageError("--time given but " + options.field + " has no time dimension");
