@@ -91,6 +91,11 @@ class Accumulator {
   void add(const TimeStepFields& step);
   /// Merge another accumulator of the same shape: counts and histograms exact, means within rounding.
   void merge(const Accumulator& other);
+  /// The parts of merge, for streaming an accumulator array by array (MPI reduction).
+  void merge_counts(const std::uint32_t* count_b, const std::uint32_t* latent_b, const std::uint32_t* real_latent_b);
+  void merge_field(int f, const std::uint32_t* n_b, const double* mean_b, const double* m2_b, const double* max_b,
+                   const std::uint32_t* hist_b);
+  void merge_stability(const std::uint32_t* stability_b);
 
   GroupBy group_by() const { return group_by_; }
   int groups() const { return groups_; }
@@ -98,13 +103,13 @@ class Accumulator {
   int levels() const { return levels_; }
   /// Index of (group, point) in the per-point arrays.
   std::size_t at(int group, std::size_t point) const { return group * points_ + point; }
-  /// Histogram of field f at (group, point): field_specs()[f].bin_count() counts.
-  std::uint32_t* histogram(int f, int group, std::size_t point) {
-    return hist[f].data() + at(group, point) * field_specs()[f].bin_count();
+  /// Index into hist[f] of (group, bin, point): layout (group, bin, point), as in the file.
+  std::size_t hist_at(int f, int group, int bin, std::size_t point) const {
+    return (static_cast<std::size_t>(group) * field_specs()[f].bin_count() + bin) * points_ + point;
   }
-  const std::uint32_t* histogram(int f, int group, std::size_t point) const {
-    return hist[f].data() + at(group, point) * field_specs()[f].bin_count();
-  }
+  /// Percentile q of field f at every (group, point), indexed by at(); the rule of
+  /// histogram_percentile, computed in sweeps over the bins; NaN where n = 0.
+  std::vector<double> percentile(int f, double q) const;
   /// Index into stability_count of (group, level, class, point).
   std::size_t stability_at(int group, int level, int cls, std::size_t point) const {
     return ((static_cast<std::size_t>(group) * levels_ + level) * kStabilityClassCount + cls) * points_ + point;
@@ -120,7 +125,7 @@ class Accumulator {
   std::vector<std::uint32_t> real_latent_count;  // class 2
   std::array<std::vector<std::uint32_t>, kFieldCount> n;  // time steps with the field defined
   std::array<std::vector<double>, kFieldCount> mean, m2, max;  // max = -inf when n = 0
-  std::array<std::vector<std::uint32_t>, kFieldCount> hist;    // [at(g,p) * bins + bin]
+  std::array<std::vector<std::uint32_t>, kFieldCount> hist;    // [hist_at(f, g, bin, p)]
   std::vector<std::uint32_t> stability_count;  // [stability_at(g, level, class, p)]
 
  private:

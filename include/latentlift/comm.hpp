@@ -25,9 +25,12 @@ class Communicator {
   virtual int allreduce_max(int value) = 0;
   /// Sum over all ranks (collective).
   virtual long long allreduce_sum(long long value) = 0;
-  /// Point-to-point transfer of a byte buffer of any size (chunked under MPI).
-  virtual void send_bytes(int dest, const std::vector<char>& bytes) = 0;
-  virtual std::vector<char> recv_bytes(int source) = 0;
+  /// Point-to-point transfer of `size` bytes whose size the receiver knows (chunked under MPI).
+  virtual void send_raw(int dest, const void* data, std::size_t size) = 0;
+  virtual void recv_raw(int source, void* data, std::size_t size) = 0;
+  /// Point-to-point transfer of a byte buffer of any size.
+  void send_bytes(int dest, const std::vector<char>& bytes);
+  std::vector<char> recv_bytes(int source);
   /// Broadcast a byte buffer from rank root (collective).
   virtual void broadcast_bytes(std::vector<char>& bytes, int root) = 0;
   /// Wait for all ranks (collective).

@@ -122,7 +122,7 @@ void Accumulator::add(const TimeStepFields& step) {
       mean[f][i] += delta / nn;
       m2[f][i] += delta * (v - mean[f][i]);
       if (v > max[f][i]) max[f][i] = v;
-      ++hist[f][i * specs[f].bin_count() + bin_of(specs[f].edges, v)];
+      ++hist[f][hist_at(f, g, bin_of(specs[f].edges, v), static_cast<std::size_t>(p))];
     }
     for (int level = 0; level < levels_; ++level) {
       const std::int8_t s = step.stability_class[static_cast<std::size_t>(level) * points_ + p];
@@ -134,36 +134,104 @@ void Accumulator::add(const TimeStepFields& step) {
 void Accumulator::merge(const Accumulator& other) {
   if (other.group_by_ != group_by_ || other.points_ != points_ || other.levels_ != levels_)
     throw Error("climatology: cannot merge accumulators of different shape (grouping, grid points or levels)");
-  const std::size_t cells = count.size();
-  const long nc = static_cast<long>(cells);
+  merge_counts(other.count.data(), other.latent_count.data(), other.real_latent_count.data());
+  for (int f = 0; f < kFieldCount; ++f)
+    merge_field(f, other.n[f].data(), other.mean[f].data(), other.m2[f].data(), other.max[f].data(),
+                other.hist[f].data());
+  merge_stability(other.stability_count.data());
+}
+
+void Accumulator::merge_counts(const std::uint32_t* count_b, const std::uint32_t* latent_b,
+                               const std::uint32_t* real_latent_b) {
+  for (std::size_t i = 0; i < count.size(); ++i) {
+    count[i] += count_b[i];
+    latent_count[i] += latent_b[i];
+    real_latent_count[i] += real_latent_b[i];
+  }
+}
+
+void Accumulator::merge_field(int f, const std::uint32_t* n_b, const double* mean_b, const double* m2_b,
+                              const double* max_b, const std::uint32_t* hist_b) {
+  const long cells = static_cast<long>(count.size());
 #ifdef LATENTLIFT_HAVE_OPENMP
 #pragma omp parallel for schedule(static)
 #endif
-  for (long c = 0; c < nc; ++c) {
+  for (long c = 0; c < cells; ++c) {
     const std::size_t i = static_cast<std::size_t>(c);
-    count[i] += other.count[i];
-    latent_count[i] += other.latent_count[i];
-    real_latent_count[i] += other.real_latent_count[i];
-    for (int f = 0; f < kFieldCount; ++f) {
-      const std::uint32_t nb = other.n[f][i];
-      if (nb == 0) continue;
-      const std::uint32_t na = n[f][i];
-      if (na == 0) {
-        mean[f][i] = other.mean[f][i];
-        m2[f][i] = other.m2[f][i];
-      } else {
-        const double nt = static_cast<double>(na) + nb;
-        const double delta = other.mean[f][i] - mean[f][i];
-        mean[f][i] += delta * (nb / nt);
-        m2[f][i] += other.m2[f][i] + delta * delta * (static_cast<double>(na) * nb / nt);
+    const std::uint32_t nb = n_b[i];
+    if (nb == 0) continue;
+    const std::uint32_t na = n[f][i];
+    if (na == 0) {
+      mean[f][i] = mean_b[i];
+      m2[f][i] = m2_b[i];
+    } else {
+      // Chan, Golub & LeVeque (1979): pairwise combination of two partial results
+      const double nt = static_cast<double>(na) + nb;
+      const double delta = mean_b[i] - mean[f][i];
+      mean[f][i] += delta * (nb / nt);
+      m2[f][i] += m2_b[i] + delta * delta * (static_cast<double>(na) * nb / nt);
+    }
+    n[f][i] = na + nb;
+    max[f][i] = std::max(max[f][i], max_b[i]);
+  }
+  std::vector<std::uint32_t>& h = hist[f];
+  for (std::size_t k = 0; k < h.size(); ++k) h[k] += hist_b[k];
+}
+
+void Accumulator::merge_stability(const std::uint32_t* stability_b) {
+  for (std::size_t k = 0; k < stability_count.size(); ++k) stability_count[k] += stability_b[k];
+}
+
+std::vector<double> Accumulator::percentile(int f, double q) const {
+  // Same arithmetic as histogram_percentile, bin by bin over blocks of points (OpenMP over blocks).
+  const auto& edges = field_specs()[f].edges;
+  const int bins = field_specs()[f].bin_count();
+  std::vector<double> result(count.size(), std::numeric_limits<double>::quiet_NaN());
+  constexpr long kBlock = 512;
+  const long blocks = static_cast<long>((points_ + kBlock - 1) / kBlock);
+  for (int g = 0; g < groups_; ++g) {
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(static)
+#endif
+    for (long blk = 0; blk < blocks; ++blk) {
+      const std::size_t p0 = static_cast<std::size_t>(blk) * kBlock;
+      const std::size_t p1 = std::min(points_, p0 + kBlock);
+      std::uint64_t below[kBlock];
+      double rank[kBlock];
+      bool done[kBlock];
+      std::size_t open = 0;
+      for (std::size_t p = p0; p < p1; ++p) {
+        const std::uint32_t total = n[f][at(g, p)];
+        below[p - p0] = 0;
+        done[p - p0] = total == 0;
+        rank[p - p0] = q / 100.0 * static_cast<double>(total);
+        if (total) ++open;
       }
-      n[f][i] = na + nb;
-      max[f][i] = std::max(max[f][i], other.max[f][i]);
+      for (int k = 0; k < bins && open > 0; ++k) {
+        const std::uint32_t* hk = hist[f].data() + hist_at(f, g, k, 0);
+        for (std::size_t p = p0; p < p1; ++p) {
+          const std::size_t j = p - p0;
+          if (done[j] || hk[p] == 0) continue;
+          const std::uint64_t cum = below[j] + hk[p];
+          if (static_cast<double>(cum) >= rank[j]) {
+            const std::size_t i = at(g, p);
+            const double mx = max[f][i];
+            if (k == 0) {
+              result[i] = std::min(edges.front(), mx);
+            } else {
+              const double lo = edges[k - 1];
+              const double hi = k < bins - 1 ? edges[k] : mx;
+              result[i] = std::min(lo + (rank[j] - static_cast<double>(below[j])) / hk[p] * (hi - lo), mx);
+            }
+            done[j] = true;
+            --open;
+          }
+          below[j] = cum;
+        }
+      }
     }
   }
-  for (int f = 0; f < kFieldCount; ++f)
-    for (std::size_t k = 0; k < hist[f].size(); ++k) hist[f][k] += other.hist[f][k];
-  for (std::size_t k = 0; k < stability_count.size(); ++k) stability_count[k] += other.stability_count[k];
+  return result;
 }
 
 namespace {

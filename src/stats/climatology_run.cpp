@@ -97,13 +97,55 @@ std::string settings_text(const Settings& settings) {
   return out.empty() ? "(none recorded)" : out;
 }
 
-// Binomial-tree reduction of the accumulators to rank 0 (merge order fixed by the rank count).
+// Binomial-tree reduction of the accumulators to rank 0 (merge order fixed by the rank count),
+// streamed array by array so that a rank holds at most one field of the other's state at a time.
+template <class T>
+void send_vector(comm::Communicator& c, int dest, const std::vector<T>& v) {
+  c.send_raw(dest, v.data(), v.size() * sizeof(T));
+}
+
+template <class T>
+const T* recv_vector(comm::Communicator& c, int source, std::vector<T>& buffer, std::size_t n) {
+  buffer.resize(n);
+  c.recv_raw(source, buffer.data(), n * sizeof(T));
+  return buffer.data();
+}
+
 void reduce_to_root(comm::Communicator& c, Accumulator& acc) {
   for (int step = 1; step < c.size(); step *= 2) {
     if (c.rank() % (2 * step) == 0) {
-      if (c.rank() + step < c.size()) acc.merge(Accumulator::deserialize(c.recv_bytes(c.rank() + step)));
+      const int src = c.rank() + step;
+      if (src >= c.size()) continue;
+      const std::size_t cells = acc.count.size();
+      std::vector<std::uint32_t> u1, u2, u3;
+      std::vector<double> d1, d2, d3;
+      const auto* cb = recv_vector(c, src, u1, cells);
+      const auto* lb = recv_vector(c, src, u2, cells);
+      const auto* rb = recv_vector(c, src, u3, cells);
+      acc.merge_counts(cb, lb, rb);
+      for (int f = 0; f < kFieldCount; ++f) {
+        const auto* nb = recv_vector(c, src, u1, cells);
+        const auto* mb = recv_vector(c, src, d1, cells);
+        const auto* m2b = recv_vector(c, src, d2, cells);
+        const auto* xb = recv_vector(c, src, d3, cells);
+        const auto* hb = recv_vector(c, src, u2, acc.hist[f].size());
+        acc.merge_field(f, nb, mb, m2b, xb, hb);
+      }
+      acc.merge_stability(recv_vector(c, src, u1, acc.stability_count.size()));
     } else {
-      c.send_bytes(c.rank() - step, acc.serialize());
+      const int dest = c.rank() - step;
+      send_vector(c, dest, acc.count);
+      send_vector(c, dest, acc.latent_count);
+      send_vector(c, dest, acc.real_latent_count);
+      for (int f = 0; f < kFieldCount; ++f) {
+        send_vector(c, dest, acc.n[f]);
+        send_vector(c, dest, acc.mean[f]);
+        send_vector(c, dest, acc.m2[f]);
+        send_vector(c, dest, acc.max[f]);
+        send_vector(c, dest, acc.hist[f]);
+      }
+      send_vector(c, dest, acc.stability_count);
+      acc = Accumulator();  // sent: release the memory
       return;
     }
   }

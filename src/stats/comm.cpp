@@ -25,11 +25,11 @@ class SerialCommunicator final : public Communicator {
   const char* backend() const override { return "serial"; }
   int allreduce_max(int value) override { return value; }
   long long allreduce_sum(long long value) override { return value; }
-  void send_bytes(int, const std::vector<char>&) override {
-    throw Error("communicator: send_bytes on a serial run (one rank only)");
+  void send_raw(int, const void*, std::size_t) override {
+    throw Error("communicator: send on a serial run (one rank only)");
   }
-  std::vector<char> recv_bytes(int) override {
-    throw Error("communicator: recv_bytes on a serial run (one rank only)");
+  void recv_raw(int, void*, std::size_t) override {
+    throw Error("communicator: receive on a serial run (one rank only)");
   }
   void broadcast_bytes(std::vector<char>&, int) override {}
   void barrier() override {}
@@ -81,25 +81,19 @@ class MpiCommunicator final : public Communicator {
     check(MPI_Allreduce(&value, &result, 1, MPI_LONG_LONG, MPI_SUM, MPI_COMM_WORLD), "MPI_Allreduce");
     return result;
   }
-  void send_bytes(int dest, const std::vector<char>& bytes) override {
-    unsigned long long size = bytes.size();
-    check(MPI_Send(&size, 1, MPI_UNSIGNED_LONG_LONG, dest, kTag, MPI_COMM_WORLD), "MPI_Send");
-    for (std::size_t off = 0; off < bytes.size(); off += kChunk) {
-      const int n = static_cast<int>(std::min(kChunk, bytes.size() - off));
-      check(MPI_Send(bytes.data() + off, n, MPI_BYTE, dest, kTag, MPI_COMM_WORLD), "MPI_Send");
+  void send_raw(int dest, const void* data, std::size_t size) override {
+    const char* bytes = static_cast<const char*>(data);
+    for (std::size_t off = 0; off < size; off += kChunk) {
+      const int n = static_cast<int>(std::min(kChunk, size - off));
+      check(MPI_Send(bytes + off, n, MPI_BYTE, dest, kTag, MPI_COMM_WORLD), "MPI_Send");
     }
   }
-  std::vector<char> recv_bytes(int source) override {
-    unsigned long long size = 0;
-    check(MPI_Recv(&size, 1, MPI_UNSIGNED_LONG_LONG, source, kTag, MPI_COMM_WORLD, MPI_STATUS_IGNORE),
-          "MPI_Recv");
-    std::vector<char> bytes(size);
-    for (std::size_t off = 0; off < bytes.size(); off += kChunk) {
-      const int n = static_cast<int>(std::min<std::size_t>(kChunk, bytes.size() - off));
-      check(MPI_Recv(bytes.data() + off, n, MPI_BYTE, source, kTag, MPI_COMM_WORLD, MPI_STATUS_IGNORE),
-            "MPI_Recv");
+  void recv_raw(int source, void* data, std::size_t size) override {
+    char* bytes = static_cast<char*>(data);
+    for (std::size_t off = 0; off < size; off += kChunk) {
+      const int n = static_cast<int>(std::min(kChunk, size - off));
+      check(MPI_Recv(bytes + off, n, MPI_BYTE, source, kTag, MPI_COMM_WORLD, MPI_STATUS_IGNORE), "MPI_Recv");
     }
-    return bytes;
   }
   void broadcast_bytes(std::vector<char>& bytes, int root) override {
     unsigned long long size = bytes.size();
@@ -130,6 +124,24 @@ bool launched_by_mpi() {
 }
 
 #endif
+
+}  // namespace
+
+void Communicator::send_bytes(int dest, const std::vector<char>& bytes) {
+  const unsigned long long size = bytes.size();
+  send_raw(dest, &size, sizeof size);
+  send_raw(dest, bytes.data(), bytes.size());
+}
+
+std::vector<char> Communicator::recv_bytes(int source) {
+  unsigned long long size = 0;
+  recv_raw(source, &size, sizeof size);
+  std::vector<char> bytes(size);
+  recv_raw(source, bytes.data(), bytes.size());
+  return bytes;
+}
+
+namespace {
 
 std::unique_ptr<Communicator> make_world() {
 #ifdef LATENTLIFT_HAVE_MPI

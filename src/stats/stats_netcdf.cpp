@@ -754,15 +754,11 @@ Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata&
       if (bounds[2 * k + 1] != spec.edges[k])
         throw InputError(path, name + "_bin_bounds", "the histogram bins of this latentlift version (edge " +
                                                          std::to_string(spec.edges[k]) + ")");
-    // histogram stored (group, bin, grid...), kept (group, point, bin)
     std::vector<unsigned int> buf(acc.hist[f].size());
     const int hv = find_var(id, name + "_histogram");
     if (hv < 0) throw InputError(path, name + "_histogram", "climatology state variable (missing)");
     check(nc_get_var_uint(id, hv, buf.data()), path, "reading " + name + "_histogram");
-    const size_t np = meta.grid.points;
-    for (int g = 0; g < acc.groups(); ++g)
-      for (size_t b = 0; b < bins; ++b)
-        for (size_t p = 0; p < np; ++p) acc.hist[f][(g * np + p) * bins + b] = buf[(g * bins + b) * np + p];
+    std::copy(buf.begin(), buf.end(), acc.hist[f].begin());  // same layout (group, bin, grid...)
   }
   if (meta.grid.levels > 0) read_u32("stability_class_count", acc.stability_count);
   return acc;
@@ -781,7 +777,6 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   } cleanup{tmp};
 
   const Grid& grid = meta.grid;
-  const size_t np = grid.points;
   const int groups = acc.groups();
   const auto& specs = field_specs();
   Nc out = Nc::create(tmp);
@@ -1042,12 +1037,8 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     check(nc_put_var_float(nc, x.std, f32.data()), tmp, "writing " + n + "_std");
     const int bins = s.bin_count();
     for (auto [v, q] : {std::pair<int, double>{x.p50, 50.0}, {x.p90, 90.0}, {x.p99, 99.0}}) {
-      for (int g = 0; g < groups; ++g)
-        for (size_t p = 0; p < np; ++p) {
-          const size_t i = acc.at(g, p);
-          const double value = histogram_percentile(acc.histogram(f, g, p), s.edges, acc.max[f][i], q);
-          f32[i] = std::isnan(value) ? NC_FILL_FLOAT : static_cast<float>(value);
-        }
+      const std::vector<double> values = acc.percentile(f, q);
+      for (size_t i = 0; i < cells_n; ++i) f32[i] = std::isnan(values[i]) ? NC_FILL_FLOAT : static_cast<float>(values[i]);
       check(nc_put_var_float(nc, v, f32.data()), tmp, "writing " + n + " percentile");
     }
     std::vector<double> lower(bins), bb(2 * bins);
@@ -1058,11 +1049,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     }
     check(nc_put_var_double(nc, x.bin, lower.data()), tmp, "writing " + n + "_bin");
     check(nc_put_var_double(nc, x.bin_bounds, bb.data()), tmp, "writing " + n + "_bin_bounds");
-    std::vector<unsigned int> hbuf(acc.hist[f].size());
-    for (int g = 0; g < groups; ++g)
-      for (int b = 0; b < bins; ++b)
-        for (size_t p = 0; p < np; ++p) hbuf[(size_t(g) * bins + b) * np + p] = acc.hist[f][(size_t(g) * np + p) * bins + b];
-    check(nc_put_var_uint(nc, x.hist, hbuf.data()), tmp, "writing " + n + "_histogram");
+    put_u32(x.hist, acc.hist[f], n + "_histogram");  // same layout (group, bin, grid...)
   }
   if (grid.levels > 0) {
     const signed char classes[] = {0, 1, 2, 3, 4};

@@ -2,7 +2,8 @@
 """Compare two latentlift climatology files: counts, histograms, maxima, valid times and
 percentiles identical; means, M2 and standard deviations within floating-point rounding.
 
-usage: compare_stats.py A.nc B.nc     (prints OK, or the differences and exits 1)
+usage: compare_stats.py [--statistics-only] A.nc B.nc   (prints OK, or the differences and exits 1)
+  --statistics-only  ignore grid variables copied from the inputs (coordinates, grid mapping)
 """
 import sys
 
@@ -14,13 +15,23 @@ ROUNDING = {"_mean": 1e-11, "_m2": 1e-9, "_std": 1e-6}
 
 
 def main():
-    a, b = netCDF4.Dataset(sys.argv[1]), netCDF4.Dataset(sys.argv[2])
+    args = sys.argv[1:]
+    statistics_only = "--statistics-only" in args
+    args = [x for x in args if x != "--statistics-only"]
+    a, b = netCDF4.Dataset(args[0]), netCDF4.Dataset(args[1])
     a.set_auto_mask(False)
     b.set_auto_mask(False)
     errors = []
-    if set(a.variables) != set(b.variables):
-        errors.append("variables differ: %s" % sorted(set(a.variables) ^ set(b.variables)))
-    for name in sorted(set(a.variables) & set(b.variables)):
+
+    def names(ds):
+        if not statistics_only:
+            return set(ds.variables)
+        return {n for n, v in ds.variables.items()
+                if "group" in v.dimensions or n == "valid_time" or n.endswith("_bin") or n.endswith("_bin_bounds")}
+
+    if names(a) != names(b):
+        errors.append("variables differ: %s" % sorted(names(a) ^ names(b)))
+    for name in sorted(names(a) & names(b)):
         x, y = a[name][:], b[name][:]
         if x.shape != y.shape:
             errors.append("%s: shapes %s and %s" % (name, x.shape, y.shape))

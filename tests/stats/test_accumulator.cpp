@@ -259,3 +259,23 @@ TEST(Histogram, PercentileOfAnEmptyHistogramIsMissing) {
   std::vector<std::uint32_t> counts{0, 0, 0};
   EXPECT_TRUE(std::isnan(cl::histogram_percentile(counts.data(), edges, 0.0, 50.0)));
 }
+
+TEST(Histogram, PercentilesOfAllPointsEqualTheOnePointRule) {
+  const int points = 23;
+  Series s = make_series(60, points, 11);
+  cl::Accumulator acc(cl::GroupBy::season, points, 0);
+  add_steps(acc, s, 0, 60);
+  const auto& spec = cl::field_specs()[kCape];
+  for (double q : {50.0, 90.0, 99.0}) {
+    const std::vector<double> all = acc.percentile(kCape, q);
+    for (int g = 0; g < acc.groups(); ++g)
+      for (int p = 0; p < points; ++p) {
+        std::vector<std::uint32_t> one(spec.bin_count());
+        for (int b = 0; b < spec.bin_count(); ++b) one[b] = acc.hist[kCape][acc.hist_at(kCape, g, b, p)];
+        const double expected = cl::histogram_percentile(one.data(), spec.edges, acc.max[kCape][acc.at(g, p)], q);
+        const double got = all[acc.at(g, p)];
+        if (std::isnan(expected)) EXPECT_TRUE(std::isnan(got));
+        else EXPECT_EQ(got, expected) << "group " << g << " point " << p << " q " << q;
+      }
+  }
+}

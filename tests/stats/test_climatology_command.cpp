@@ -28,8 +28,8 @@ t::CommandResult climatology(const std::string& args) {
   return t::run_command(t::binary() + " climatology " + args + " --quiet");
 }
 
-t::CommandResult compare(const std::string& a, const std::string& b) {
-  return t::run_command(script("compare_stats.py") + " " + a + " " + b);
+t::CommandResult compare(const std::string& a, const std::string& b, const std::string& options = "") {
+  return t::run_command(script("compare_stats.py") + " " + options + " " + a + " " + b);
 }
 
 const char* kMpiEnv = "OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 OMPI_MCA_rmaps_base_oversubscribe=1 ";
@@ -147,7 +147,8 @@ TEST(ClimatologyCommand, ModelInputsAreAnalysedLikeTheirAnalyzeOutput) {
   ASSERT_EQ(climatology(dir + "/analysis.nc -o " + dir + "/from_output.nc").exit_code, 0);
   auto m = climatology(sample + " -o " + dir + "/from_model.nc");
   ASSERT_EQ(m.exit_code, 0) << m.output;
-  auto same = compare(dir + "/from_output.nc", dir + "/from_model.nc");
+  // the analyze output may carry a completed grid mapping the model input lacks: statistics only
+  auto same = compare(dir + "/from_output.nc", dir + "/from_model.nc", "--statistics-only");
   EXPECT_EQ(same.exit_code, 0) << same.output;
 }
 
