@@ -3,9 +3,11 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <filesystem>
 #include <fstream>
 #include <string>
 
+#include "gis/netcdf_crs.hpp"
 #include "gis/netcdf_file.hpp"
 #include "gis_test_helpers.hpp"
 #include "latentlift/crs.hpp"
@@ -143,6 +145,54 @@ TEST(CfGridMapping, CrsWktAloneMatchesCs2csWithin1mm) {
                           (ours.longitude_deg[k] - lon) * kMetresPerDegree * std::cos(lat * kPi / 180.0));
     EXPECT_LT(d, 1e-3);
   }
+}
+
+// The completed grid mapping (crs_wkt added by the writer hook) must be read by GDAL as the same CRS
+// GDAL reads from the CF parameters alone: cs2cs between GDAL's two readings is the identity.
+void expect_completed_mapping_reads_as_the_same_crs(const std::string& mapping, const std::string& xname,
+                                                    const std::string& yname, double tolerance) {
+  std::string dir = scratch_dir("complete_" + mapping);
+  std::string cf_only = make_cf_grid(dir, mapping);
+  std::string completed = dir + "/completed.nc";
+  std::filesystem::copy_file(cf_only, completed);
+  int ncid = -1, varid = -1;
+  ASSERT_EQ(nc_open(completed.c_str(), NC_WRITE, &ncid), NC_NOERR);
+  ASSERT_EQ(nc_redef(ncid), NC_NOERR);
+  ASSERT_EQ(nc_inq_varid(ncid, "crs", &varid), NC_NOERR);
+  gis::complete_grid_mapping_variable(ncid, varid, ncid, varid, completed, "crs");
+  ASSERT_EQ(nc_close(ncid), NC_NOERR);
+
+  auto proj_of = [](const std::string& path) {
+    auto srs = run_command("gdalsrsinfo -o proj4 NETCDF:" + path + ":mu_cape");
+    EXPECT_EQ(srs.exit_code, 0) << srs.output;
+    std::string proj = srs.output.substr(srs.output.find('+'));
+    return proj.substr(0, proj.find('\n'));
+  };
+  auto wkt = run_command("gdalsrsinfo -o wkt2 NETCDF:" + completed + ":mu_cape");
+  EXPECT_EQ(wkt.exit_code, 0) << wkt.output;
+  NativeGrid grid = read_native_grid(cf_only, xname, yname);
+  std::ofstream points(dir + "/points.txt");
+  points.precision(17);
+  for (std::size_t k = 0; k < grid.x.size(); k += 7) points << grid.x[k] << " " << grid.y[k % grid.y.size()] << "\n";
+  points.close();
+  auto cs2cs = run_command("cs2cs -f %.10f " + proj_of(cf_only) + " +to " + proj_of(completed) + " < " + dir +
+                           "/points.txt");
+  ASSERT_EQ(cs2cs.exit_code, 0) << cs2cs.output;
+  std::vector<double> values = numbers_of(cs2cs.output);
+  std::size_t n = 0;
+  for (std::size_t k = 0; k < grid.x.size(); k += 7, ++n) {
+    ASSERT_LT(3 * n + 1, values.size()) << cs2cs.output;
+    EXPECT_NEAR(values[3 * n], grid.x[k], tolerance) << mapping;
+    EXPECT_NEAR(values[3 * n + 1], grid.y[k % grid.y.size()], tolerance) << mapping;
+  }
+}
+
+TEST(CompletedGridMapping, EveryMappingIsReadByGdalAsTheSameCrs) {
+  for (const char* mapping : {"lambert_conformal_conic", "polar_stereographic", "mercator", "transverse_mercator",
+                              "lambert_azimuthal_equal_area"})
+    expect_completed_mapping_reads_as_the_same_crs(mapping, "x", "y", 1e-3);  // metres
+  expect_completed_mapping_reads_as_the_same_crs("rotated_latitude_longitude", "rlon", "rlat", 1e-8);  // degrees
+  expect_completed_mapping_reads_as_the_same_crs("latitude_longitude", "lon", "lat", 1e-8);
 }
 
 AttributeList lcc() {

@@ -185,6 +185,26 @@ TEST(Reproject, BilinearErrorInWebMercatorIsWithinTheInterpolationBound) {
   EXPECT_LE(worst, bound);
 }
 
+TEST(Reproject, GlobalLatLonGridWrapsAcrossTheDateLine) {
+  // A global 5-degree grid (lon 0..355): with lx = ly = 180/pi the field is sin(lon) cos(lat), periodic
+  // in longitude, so target cells between 355 E and 0 E interpolate across the seam, within the bound.
+  std::string dir = scratch_dir("reproject_global");
+  const double l = 180.0 / kPi;
+  std::string in = make_cf_grid(dir, "none", "--grid 0 5 -87.5 5 --nx 72 --ny 36 --lx " + std::to_string(l) +
+                                                 " --ly " + std::to_string(l));
+  std::string out = dir + "/ll.nc";
+  reproject(in, out, "--crs EPSG:4326 --resolution 1 --bbox -180,-87,180,87");
+  Field f = read_field(out, "mu_cape", "lon", "lat");
+  double bound = bilinear_bound(5.0, l, l), worst = 0;
+  for (std::size_t j = 0; j < f.y.size(); ++j)
+    for (std::size_t i = 0; i < f.x.size(); ++i) {
+      double v = f.values[j * f.x.size() + i];
+      ASSERT_NE(v, f.fill) << f.x[i] << " " << f.y[j];
+      worst = std::max(worst, std::fabs(v - analytic(f.x[i], f.y[j], l, l)));
+    }
+  EXPECT_LE(worst, bound);
+}
+
 TEST(Reproject, BilinearIsMissingNextToAMissingSourceCell) {
   // latent_layer_depth is missing at source columns i < 2 and rows j < 2 (lon <= 0.5, lat <= 40.5):
   // any target cell whose lower-left neighbour is such a cell (lon < 1, lat < 41) must be missing.
