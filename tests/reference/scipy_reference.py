@@ -46,6 +46,7 @@ P1000 = 100000.0
 RTOL = 1e-10
 ATOL = 1e-9
 ROUNDING_K = 1e-9     # buoyancy (K) this close to zero is rounding noise
+BAND_K = 0.02         # fast-path tolerance of METHODS: buoyancy known to within this
 
 # Analysis settings (defaults of METHODS/DESIGN).
 TOP_PA = 10000.0
@@ -208,7 +209,8 @@ def analyse(col, run):
         usable &= col.p <= col.psfc
     nan = np.full(n, np.nan)
     lev = {k: nan.copy() for k in ("tw", "theta_w", "theta_w_star", "p_lcl", "t_lcl", "max_excess",
-                                   "flag", "lfc", "el", "cape", "cin", "stability", "stability_margin",
+                                   "flag", "lfc", "el", "cape", "cin", "lfc_band_bottom", "lfc_band_top",
+                                   "el_band_bottom", "el_band_top", "stability", "stability_margin",
                                    "potential")}
     colres = {k: math.nan for k in ("tangent_theta_w_k", "tangent_pressure_pa", "mu_pressure_pa",
                                     "mu_theta_w_k", "mu_cape_j_kg", "mu_cin_j_kg", "mu_lfc_pressure_pa",
@@ -299,7 +301,9 @@ def analyse(col, run):
     gl_x, gl_w = np.polynomial.legendre.leggauss(8)
 
     def ascent(k):
-        res = dict(max_excess=math.nan, flag=0, lfc=math.nan, el=math.nan, cape=0.0, cin=math.nan)
+        res = dict(max_excess=math.nan, flag=0, lfc=math.nan, el=math.nan, cape=0.0, cin=math.nan,
+                   lfc_band_bottom=math.nan, lfc_band_top=math.nan, el_band_bottom=math.nan,
+                   el_band_top=math.nan)
         if not ascending[k]:
             return res
         # Buoyancy on dense samples of every smooth piece from the source to the top.
@@ -354,6 +358,22 @@ def analyse(col, run):
         res["lfc"] = math.exp(x_lfc)
         res["el"] = math.exp(x_el)
 
+        # Conditioning: the stretch around the LFC (and the EL) where |buoyancy| stays within
+        # BAND_K, the fast-path tolerance. Where the buoyancy grows by millikelvins per hPa, a
+        # crossing anywhere in that stretch is as good as the reference's.
+        def band(x0):
+            near = np.abs(vals_all) <= BAND_K
+            j = int(np.argmin(np.abs(xs_all - x0)))
+            lo = hi = j
+            while hi + 1 < len(xs_all) and near[hi + 1]:
+                hi += 1
+            while lo > 0 and near[lo - 1]:
+                lo -= 1
+            return math.exp(max(xs_all[lo], x0)), math.exp(min(xs_all[hi], x0))   # bottom, top (Pa)
+
+        res["lfc_band_bottom"], res["lfc_band_top"] = band(x_lfc)
+        res["el_band_bottom"], res["el_band_top"] = band(x_el)
+
         # CAPE (LFC..EL, positive part) and CIN (source..LFC, negative part): 8-point
         # Gauss-Legendre on pieces where the integrand is smooth and of one sign.
         def nodes_of(x_lo, x_hi):
@@ -380,7 +400,8 @@ def analyse(col, run):
         lev["theta_w_star"][k] = theta_w_star[j]
         lev["p_lcl"][k] = p_l[j]
         lev["t_lcl"][k] = t_l[j]
-        for key in ("max_excess", "flag", "lfc", "el", "cape", "cin"):
+        for key in ("max_excess", "flag", "lfc", "el", "cape", "cin", "lfc_band_bottom", "lfc_band_top",
+                    "el_band_bottom", "el_band_top"):
             lev[key][k] = asc[j][key]
 
     # Static stability of the layer from each level to the next input level above (graphical
@@ -436,6 +457,8 @@ def analyse(col, run):
     colres["mu_cin_j_kg"] = a["cin"]
     colres["mu_lfc_pressure_pa"] = a["lfc"]
     colres["mu_el_pressure_pa"] = a["el"]
+    for key in ("lfc_band_bottom", "lfc_band_top", "el_band_bottom", "el_band_top"):
+        colres["mu_" + key] = a[key]
     if a["flag"]:
         colres["mu_lift_to_lfc_pa"] = p[k_mu] - a["lfc"]
         colres["mu_lift_to_lfc_z_m"] = height_at(math.log(a["lfc"])) - height_at(lnp[k_mu])
@@ -444,6 +467,9 @@ def analyse(col, run):
         colres["latent_class"] = 0
     lifts = [(p[k] - asc[k]["lfc"], k) for k in src if asc[k]["flag"]]
     if lifts:
+        # Range of the least lift allowed by the LFC bands of the flagged parcels.
+        colres["easiest_lift_lo_pa"] = min(p[k] - asc[k]["lfc_band_bottom"] for _, k in lifts)
+        colres["easiest_lift_hi_pa"] = min(p[k] - asc[k]["lfc_band_top"] for _, k in lifts)
         best_lift, k_e = min(lifts)
         colres["easiest_lift_pa"] = best_lift
         colres["easiest_lift_pressure_pa"] = p[k_e]
