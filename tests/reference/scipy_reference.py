@@ -185,16 +185,20 @@ def qc_counts(col):
     with np.errstate(invalid="ignore"):
         esat = es_pa(t)
         if col.kind == "specific_humidity":
-            clipped = (h > EPS * esat / (p - (1 - EPS) * esat)) | (h < 0)
+            ratio = h / (EPS * esat / (p - (1 - EPS) * esat))
         elif col.kind == "mixing_ratio":
-            clipped = (h > EPS * esat / (p - esat)) | (h < 0)
+            ratio = h / (EPS * esat / (p - esat))
         elif col.kind == "relative_humidity":
-            clipped = (h > 1.0) | (h < 0)
+            ratio = h
         else:
-            clipped = np.zeros(len(p), bool)
+            ratio = np.zeros(len(p))
+        clipped = (ratio > 1.0) | (h < 0)
+        # Exactly saturated input: "above saturation" is decided by rounding either way.
+        at_saturation = np.abs(ratio - 1.0) < 1e-9
         corrected = (h > t) if col.kind == "dew_point" else np.zeros(len(p), bool)
     return {"qc_temperature_rejected": int(np.sum(ok & ~in_range)),
-            "qc_humidity_clipped": int(np.sum(in_range & clipped)),
+            "qc_humidity_clipped": int(np.sum(in_range & clipped & ~at_saturation)),
+            "qc_humidity_at_saturation": int(np.sum(in_range & at_saturation)),
             "qc_dew_point_corrected": int(np.sum(in_range & corrected))}
 
 
