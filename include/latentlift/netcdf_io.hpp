@@ -122,6 +122,10 @@ class OutputWriter {
   /// The input step written at output step out_step.
   std::size_t input_step(std::size_t out_step) const;
   void write_fields(std::size_t out_step, const FieldSet& fields);
+  /// True when maps are chunked in bands of block rows: write each block with write_fields_block.
+  bool writes_by_block() const;
+  /// Write columns `range` (whole rows) of the full-map arrays in fields.
+  void write_fields_block(std::size_t out_step, ColumnRange range, const FieldSet& fields);
   void write_level_block(std::size_t out_step, const LevelFieldBlock& block);
   /// Record the QC counts, close and rename into place.
   void commit(const QcCounts& qc);

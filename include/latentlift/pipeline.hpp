@@ -32,6 +32,8 @@ struct RunSummary {
   std::size_t columns = 0;      // columns seen (steps x columns per step)
   QcCounts qc;                  // summed over every column
   double seconds = 0.0;         // wall time of the whole run
+  double input_wait_seconds = 0.0;   // analysis threads idle, waiting for input blocks
+  double output_wait_seconds = 0.0;  // waiting for output writes (and the final close)
 };
 
 /// Analyse `input` and write `output` (CF-1.8 NetCDF-4; temporary file renamed into place).

@@ -86,7 +86,8 @@ int run_analyze(const AnalyzeArgs& args) {
                 summary.columns, qc.columns_analysed, qc.columns_skipped);
     std::printf("  quality control: humidity clipped %ld, dew point corrected %ld, temperatures rejected %ld\n",
                 qc.humidity_clipped, qc.dew_point_corrected, qc.temperature_rejected);
-    std::printf("  time %.2f s on %d threads, %.0f columns/s\n", summary.seconds, parallel::max_threads(),
+    std::printf("  time %.2f s on %d threads (waiting for input %.2f s, for output %.2f s), %.0f columns/s\n",
+                summary.seconds, parallel::max_threads(), summary.input_wait_seconds, summary.output_wait_seconds,
                 summary.seconds > 0 ? summary.columns / summary.seconds : 0.0);
   }
   return 0;

@@ -65,8 +65,16 @@ class IoWorker {
   std::thread thread_;
 };
 
-void wait(std::future<void>& f) {
-  if (f.valid()) f.get();
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+/// Wait for f, adding the time waited to seconds.
+void timed_wait(std::future<void>& f, double& seconds) {
+  if (!f.valid()) return;
+  const auto start = std::chrono::steady_clock::now();
+  f.get();
+  seconds += seconds_since(start);
 }
 
 /// Scalar results of one column, in the order of real_field_names(), in output units.
@@ -115,23 +123,30 @@ class Runner {
   }
 
   /// Analyse one input step into fields; level blocks go to level_sink (may be empty).
+  /// block_sink(range), if given, runs on the I/O thread after each block (fields of range complete).
   void run_step(std::size_t step, std::size_t step_number, std::size_t n_steps, FieldSet& fields,
-                const std::function<void(const LevelFieldBlock&)>& level_sink) {
+                const std::function<void(const LevelFieldBlock&)>& level_sink,
+                const std::function<void(ColumnRange)>& block_sink = {}) {
     try {
-      run_step_blocks(step, step_number, n_steps, fields, level_sink);
+      run_step_blocks(step, step_number, n_steps, fields, level_sink, block_sink);
     } catch (...) {  // pending I/O tasks refer to this step's buffers: let them finish first
       if (reading_.valid()) reading_.wait();
       for (auto& w : level_writes_)
         if (w.valid()) w.wait();
+      for (auto& w : block_writes_)
+        if (w.valid()) w.wait();
+      block_writes_.clear();
       throw;
     }
   }
 
   IoWorker& io() { return io_; }
+  double input_wait_seconds = 0.0, output_wait_seconds = 0.0;
 
  private:
   void run_step_blocks(std::size_t step, std::size_t step_number, std::size_t n_steps, FieldSet& fields,
-                       const std::function<void(const LevelFieldBlock&)>& level_sink) {
+                       const std::function<void(const LevelFieldBlock&)>& level_sink,
+                       const std::function<void(ColumnRange)>& block_sink) {
     std::future<void>& reading = reading_;
     prepare(fields, grid_.n_columns);
     const int nz = static_cast<int>(grid_.vertical.length);
@@ -139,7 +154,7 @@ class Runner {
     reading = io_.submit([&, step] { input_.read_block(step, blocks_[0], column_blocks_[0]); });
     std::size_t done = 0;
     for (std::size_t b = 0; b < blocks_.size(); ++b) {
-      wait(reading);
+      timed_wait(reading, input_wait_seconds);
       ColumnBlock& block = column_blocks_[b % 2];
       if (b + 1 < blocks_.size()) {
         ColumnBlock& next = column_blocks_[(b + 1) % 2];
@@ -151,16 +166,22 @@ class Runner {
       any_z = any_z || block.any_height;
       LevelFieldBlock& levels = level_blocks_[b % 2];
       if (options_.level_fields) {
-        wait(level_writes_[b % 2]);  // the buffer is free again
+        timed_wait(level_writes_[b % 2], output_wait_seconds);  // the buffer is free again
         prepare_levels(levels, block.range, nz);
       }
       analyze_block(block, fields, options_.level_fields ? &levels : nullptr);
       if (options_.level_fields && level_sink)
         level_writes_[b % 2] = io_.submit([&levels, &level_sink] { level_sink(levels); });
+      if (block_sink) {
+        const ColumnRange range = block.range;
+        block_writes_.push_back(io_.submit([&block_sink, range] { block_sink(range); }));
+      }
       done += block.range.count;
       if (options_.progress) options_.progress({step_number, n_steps, done, grid_.n_columns});
     }
-    for (auto& w : level_writes_) wait(w);
+    for (auto& w : level_writes_) timed_wait(w, output_wait_seconds);
+    for (auto& w : block_writes_) timed_wait(w, output_wait_seconds);
+    block_writes_.clear();
     if (!any_t || !any_h || !any_z) input_.throw_all_missing(step, any_t, any_h, any_z);
   }
 
@@ -234,12 +255,9 @@ class Runner {
   LevelFieldBlock level_blocks_[2];
   std::future<void> level_writes_[2];
   std::future<void> reading_;
+  std::vector<std::future<void>> block_writes_;
   IoWorker io_;  // last: joined first, before the buffers its tasks use go away
 };
-
-double seconds_since(std::chrono::steady_clock::time_point start) {
-  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-}
 
 }  // namespace
 
@@ -274,13 +292,18 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
     try {
       for (std::size_t s = 0; s < n; ++s) {
         FieldSet& current = fields[s % 2];
-        wait(writes[s % 2]);
+        timed_wait(writes[s % 2], summary.output_wait_seconds);
         auto level_sink = [&writer, s](const LevelFieldBlock& block) { writer.write_level_block(s, block); };
-        runner.run_step(writer.input_step(s), s, n, current, level_sink);
+        if (writer.writes_by_block()) {  // maps written band by band while the analysis goes on
+          auto block_sink = [&writer, &current, s](ColumnRange range) { writer.write_fields_block(s, range, current); };
+          runner.run_step(writer.input_step(s), s, n, current, level_sink, block_sink);
+        } else {  // one chunk per map: written whole, while the next step is analysed
+          runner.run_step(writer.input_step(s), s, n, current, level_sink);
+          writes[s % 2] = runner.io().submit([&writer, &current, s] { writer.write_fields(s, current); });
+        }
         summary.qc.add(current.qc);
-        writes[s % 2] = runner.io().submit([&writer, &current, s] { writer.write_fields(s, current); });
       }
-      for (auto& w : writes) wait(w);
+      for (auto& w : writes) timed_wait(w, summary.output_wait_seconds);
     } catch (...) {
       for (auto& w : writes)  // let pending writes finish before their buffers go away
         if (w.valid()) w.wait();
@@ -288,8 +311,12 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
     }
     summary.steps = n;
     summary.columns = n * input.grid().n_columns;
+    summary.input_wait_seconds = runner.input_wait_seconds;
+    summary.output_wait_seconds += runner.output_wait_seconds;
   }
+  const auto commit_start = std::chrono::steady_clock::now();
   writer.commit(summary.qc);
+  summary.output_wait_seconds += seconds_since(commit_start);
   summary.seconds = seconds_since(start);
   return summary;
 }
@@ -315,6 +342,7 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
   }
   summary.steps = steps.size();
   summary.columns = steps.size() * grid.n_columns;
+  summary.input_wait_seconds = runner.input_wait_seconds;
   summary.seconds = seconds_since(start);
   return summary;
 }

@@ -176,6 +176,7 @@ struct OutputWriter::Impl {
   std::vector<std::size_t> time_indices;      // input time index per output time index
   int time_outer = -1;
   std::map<std::string, int> field_var;       // output field -> varid
+  bool banded = false;                        // 2-D fields chunked in bands of block rows
   std::vector<float> scratch;
 
   std::vector<std::size_t> out_indices(std::size_t out_step) const {
@@ -266,6 +267,14 @@ void OutputWriter::Impl::define(const InputDataset& in) {
     if (d::find_var(out, coord) >= 0) coordinates += (coordinates.empty() ? "" : " ") + coord;
 
   // Output fields: float (NaN written as _FillValue) and byte with flag_values.
+  // Maps larger than a block of whole rows are chunked in bands of block rows, so that each
+  // block is compressed and written while the next is analysed; smaller maps are one chunk.
+  if (grid.horizontal.size() == 2) {
+    const std::size_t nx = grid.horizontal[1].length;
+    banded = grid.n_columns > options.block_columns && options.block_columns >= nx;
+  } else {
+    banded = grid.n_columns > options.block_columns;
+  }
   auto define_field = [&](const FieldInfo& info, bool is_byte, bool per_level) {
     std::vector<int> dims = outer_dims;
     std::vector<size_t> chunks(outer_dims.size(), 1);
@@ -282,12 +291,12 @@ void OutputWriter::Impl::define(const InputDataset& in) {
         chunks.push_back(rows);
         chunks.push_back(std::min(nx, std::max<std::size_t>(1, options.block_columns)));
       } else {
-        chunks.push_back(ny);
+        chunks.push_back(banded ? options.block_columns / nx : ny);
         chunks.push_back(nx);
       }
     } else {
-      chunks.push_back(per_level ? std::min(grid.n_columns, std::max<std::size_t>(1, options.block_columns))
-                                 : grid.n_columns);
+      chunks.push_back(per_level || banded ? std::min(grid.n_columns, std::max<std::size_t>(1, options.block_columns))
+                                           : grid.n_columns);
     }
     int var = -1;
     d::check(nc_def_var(out, info.name, is_byte ? NC_BYTE : NC_FLOAT, static_cast<int>(dims.size()), dims.data(), &var),
@@ -430,7 +439,13 @@ std::size_t OutputWriter::input_step(std::size_t out_step) const {
 
 const std::string& OutputWriter::temporary_path() const { return impl_->temporary; }
 
+bool OutputWriter::writes_by_block() const { return impl_->banded; }
+
 void OutputWriter::write_fields(std::size_t out_step, const FieldSet& fields) {
+  write_fields_block(out_step, {0, impl_->input->grid().n_columns}, fields);
+}
+
+void OutputWriter::write_fields_block(std::size_t out_step, ColumnRange range, const FieldSet& fields) {
   Impl& impl = *impl_;
   const GridDescription& grid = impl.input->grid();
   std::vector<size_t> start, count;
@@ -438,9 +453,17 @@ void OutputWriter::write_fields(std::size_t out_step, const FieldSet& fields) {
     start.push_back(i);
     count.push_back(1);
   }
-  for (const Dimension& dim : grid.horizontal) {
+  if (grid.horizontal.size() == 2) {
+    const std::size_t nx = grid.horizontal[1].length;
+    if (range.begin % nx != 0 || (range.count % nx != 0 && range.begin + range.count != grid.n_columns))
+      throw Error("write_fields_block: columns must be whole rows");
+    start.push_back(range.begin / nx);
+    count.push_back((range.count + nx - 1) / nx);
     start.push_back(0);
-    count.push_back(dim.length);
+    count.push_back(nx);
+  } else {
+    start.push_back(range.begin);
+    count.push_back(range.count);
   }
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
   const int out = impl.file.id();
@@ -448,7 +471,7 @@ void OutputWriter::write_fields(std::size_t out_step, const FieldSet& fields) {
     auto it = impl.field_var.find(name);
     if (it == impl.field_var.end()) throw Error("write_fields: unknown output field " + name);
     if (values.size() != grid.n_columns) throw Error("write_fields: " + name + " has the wrong size");
-    impl.scratch.assign(values.begin(), values.end());
+    impl.scratch.assign(values.begin() + range.begin, values.begin() + range.begin + range.count);
     for (float& v : impl.scratch)
       if (std::isnan(v)) v = NC_FILL_FLOAT;
     d::check(nc_put_vara_float(out, it->second, start.data(), count.data(), impl.scratch.data()), impl.temporary,
@@ -457,10 +480,13 @@ void OutputWriter::write_fields(std::size_t out_step, const FieldSet& fields) {
   for (const auto& [name, values] : fields.byte) {
     auto it = impl.field_var.find(name);
     if (it == impl.field_var.end()) throw Error("write_fields: unknown output field " + name);
+    if (values.size() != grid.n_columns) throw Error("write_fields: " + name + " has the wrong size");
     d::check(nc_put_vara_schar(out, it->second, start.data(), count.data(),
-                               reinterpret_cast<const signed char*>(values.data())),
+                               reinterpret_cast<const signed char*>(values.data() + range.begin)),
              impl.temporary, "writing " + name);
-  }
+  }  // Push the finished chunks through compression now (on the I/O thread, while the analysis
+  // runs) rather than at close.
+  d::check(nc_sync(out), impl.temporary, "flushing");
 }
 
 void OutputWriter::write_level_block(std::size_t out_step, const LevelFieldBlock& block) {
@@ -503,7 +529,9 @@ void OutputWriter::write_level_block(std::size_t out_step, const LevelFieldBlock
                                reinterpret_cast<const signed char*>(values.data())),
              impl.temporary, "writing " + name);
   }
+  d::check(nc_sync(out), impl.temporary, "flushing");
 }
+
 
 void OutputWriter::commit(const QcCounts& qc) {
   Impl& impl = *impl_;
