@@ -1,10 +1,13 @@
-// Helpers of the gis tests: test grids written by make_cf_grid.py, reading them back.
+// Helpers of the gis tests: test grids written by make_cf_grid.py, reading fields back, gdalinfo.
 #pragma once
+
+#include <gtest/gtest.h>
 
 #include <sstream>
 #include <string>
 #include <vector>
 
+#include "gis/netcdf_file.hpp"
 #include "support/test_support.hpp"
 
 namespace latentlift::test {
@@ -34,10 +37,36 @@ inline std::vector<double> numbers_of(const std::string& text) {
   return out;
 }
 
-inline std::string shell_quote(const std::string& text) {
-  std::string out = "'";
-  for (char c : text) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return out + "'";
+/// A field as stored ([time][y][x]) with its 1-D coordinates and _FillValue.
+struct Field {
+  std::vector<double> x, y, values;  // values [time][y][x] as stored
+  double fill = 0;
+};
+
+inline Field read_field(const std::string& path, const std::string& name, const std::string& xname,
+                        const std::string& yname) {
+  auto file = gis::detail::NcFile::open(path);
+  Field f;
+  f.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
+  f.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
+  auto var = *gis::detail::find_variable(file, name);
+  f.values = gis::detail::read_doubles(file, var);
+  f.fill = gis::detail::number_attribute(file, var.id, "_FillValue")->front();
+  return f;
 }
+
+// gdalinfo -json of one variable: size, geotransform and whether the CRS WKT contains `crs_text`
+// (double quotes in crs_text escaped for the shell).
+struct GdalInfo {
+  std::vector<double> numbers;  // width height gt0..gt5 has_crs
+};
+inline GdalInfo gdal_info(const std::string& path, const std::string& variable, const std::string& crs_text) {
+  auto result = run_command("gdalinfo -json NETCDF:" + path + ":" + variable + " | " + python() + " -c \"" +
+                            "import json,sys; d=json.load(sys.stdin); print(*d['size'], *d['geoTransform'], int('" +
+                            crs_text + "' in d['coordinateSystem']['wkt']))\"");
+  EXPECT_EQ(result.exit_code, 0) << result.output;
+  return {numbers_of(result.output)};
+}
+
 
 }  // namespace latentlift::test

@@ -20,40 +20,10 @@ using gis::detail::NcFile;
 constexpr double kPi = 3.14159265358979323846;
 constexpr double kFloatFill = 9.969209968386869e36;  // NC_FILL_FLOAT (netCDF-C documentation)
 
-struct Field {
-  std::vector<double> x, y, values;  // values [time][y][x] as stored
-  double fill = 0;
-};
-
-Field read_field(const std::string& path, const std::string& name, const std::string& xname,
-                 const std::string& yname) {
-  NcFile file = NcFile::open(path);
-  Field f;
-  f.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
-  f.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
-  auto var = *gis::detail::find_variable(file, name);
-  f.values = gis::detail::read_doubles(file, var);
-  f.fill = gis::detail::number_attribute(file, var.id, "_FillValue")->front();
-  return f;
-}
-
 std::string reproject(const std::string& input, const std::string& output, const std::string& options) {
   auto result = run_command(binary() + " reproject " + input + " -o " + output + " " + options);
   EXPECT_EQ(result.exit_code, 0) << result.output;
   return result.output;
-}
-
-// gdalinfo -json of one variable: size, geotransform and whether the CRS WKT contains `crs_text`
-// (double quotes in crs_text escaped for the shell).
-struct GdalInfo {
-  std::vector<double> numbers;  // width height gt0..gt5 has_crs
-};
-GdalInfo gdal_info(const std::string& path, const std::string& variable, const std::string& crs_text) {
-  auto result = run_command("gdalinfo -json NETCDF:" + path + ":" + variable + " | " + python() + " -c \"" +
-                            "import json,sys; d=json.load(sys.stdin); print(*d['size'], *d['geoTransform'], int('" +
-                            crs_text + "' in d['coordinateSystem']['wkt']))\"");
-  EXPECT_EQ(result.exit_code, 0) << result.output;
-  return {numbers_of(result.output)};
 }
 
 TEST(Reproject, GdalReadsUtmOutputWithExpectedCrsSizeAndGeotransform) {
@@ -273,63 +243,6 @@ TEST(Reproject, UnstructuredGridUsesTheNearestCellAndIsMissingFarAway) {
   EXPECT_GT(valid, 1000u);
   auto bilinear = run_command(binary() + " reproject " + in + " -o " + dir + "/b.nc --resolution 0.25 --method bilinear");
   EXPECT_EQ(bilinear.exit_code, 2) << bilinear.output;
-}
-
-TEST(Reproject, AnalyzeOutputOpensInGdalWithTheModelCrsAndGrid) {
-  std::string sample = test_dir() + "/../sample_grids/vessaline_coast_lcc.nc";
-  if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid";
-  std::string dir = scratch_dir("analyze_gdal");
-  std::string out = dir + "/out.nc";
-  auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
-  ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
-  Field f = read_field(out, "mu_cape", "x", "y");
-  GdalInfo info = gdal_info(out, "mu_cape", "Lambert Conic Conformal (2SP)");
-  ASSERT_EQ(info.numbers.size(), 9u);
-  double dx = f.x[1] - f.x[0], dy = std::fabs(f.y[1] - f.y[0]);
-  EXPECT_EQ(info.numbers[0], f.x.size());
-  EXPECT_EQ(info.numbers[1], f.y.size());
-  EXPECT_NEAR(info.numbers[2], f.x.front() - dx / 2, 1e-6);
-  EXPECT_NEAR(info.numbers[3], dx, 1e-9);
-  EXPECT_NEAR(info.numbers[5], std::max(f.y.front(), f.y.back()) + dy / 2, 1e-6);
-  EXPECT_NEAR(info.numbers[7], -dy, 1e-9);
-  EXPECT_EQ(info.numbers[8], 1) << "CRS is not the model's Lambert conformal conic";
-}
-
-TEST(Reproject, GdallocationinfoOnAnalyzeOutputMatchesTheColumnCommand) {
-  std::string sample = test_dir() + "/../sample_grids/vessaline_coast_lcc.nc";
-  if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid";
-  std::string dir = scratch_dir("analyze_column");
-  std::string out = dir + "/out.nc";
-  auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
-  ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
-  NcFile file = NcFile::open(out);
-  auto mapping_var = gis::detail::text_attribute(file, gis::detail::find_variable(file, "mu_cape")->id, "grid_mapping");
-  auto mapping = gis::detail::read_attributes(file, gis::detail::find_variable(file, *mapping_var)->id);
-  Field f = read_field(out, "mu_cape", "x", "y");
-  int compared = 0;
-  for (auto [i, j] : {std::pair{20, 15}, {40, 33}, {61, 50}, {70, 10}}) {
-    // Cell centre in lat/lon (the model's sphere; -wgs84 passes lat/lon through unchanged).
-    auto ll = gis::latlon_of_projected(mapping, {f.x[i]}, {f.y[j]});
-    char where[96];
-    std::snprintf(where, sizeof where, "%.9f %.9f", ll.longitude_deg[0], ll.latitude_deg[0]);
-    auto gdal = run_command("gdallocationinfo -valonly -wgs84 NETCDF:" + out + ":mu_cape " + where);
-    ASSERT_EQ(gdal.exit_code, 0) << gdal.output;
-    std::snprintf(where, sizeof where, "--lat %.9f --lon %.9f", ll.latitude_deg[0], ll.longitude_deg[0]);
-    auto column = run_command(binary() + " column " + sample + " " + where + " --format json");
-    ASSERT_EQ(column.exit_code, 0) << column.output;
-    auto key = column.output.find("\"mu_cape\":");
-    ASSERT_NE(key, std::string::npos) << column.output;
-    std::string text = column.output.substr(key + 10, column.output.find_first_of(",\n", key) - key - 10);
-    double stored = f.values[j * f.x.size() + i];
-    if (text.find("null") != std::string::npos) {
-      EXPECT_EQ(stored, f.fill);
-      continue;
-    }
-    EXPECT_FLOAT_EQ(std::stod(gdal.output), stored) << "GDAL located another cell than " << i << "," << j;
-    EXPECT_NEAR(std::stod(gdal.output), std::stod(text), 0.006) << "cell " << i << "," << j;  // column prints 2 decimals
-    ++compared;
-  }
-  EXPECT_GE(compared, 2);
 }
 
 TEST(Reproject, UnknownCrsIsAUsageErrorAndLeavesNoFile) {
