@@ -3,6 +3,8 @@
 #include <unistd.h>
 
 #include <cmath>
+#include <csignal>
+#include <cstring>
 #include <cstdio>
 #include <ctime>
 #include <filesystem>
@@ -163,6 +165,32 @@ void write_latlon_grid_mapping(int ncid_out, const std::string& name, const std:
     }
   }
 }
+
+// An interrupted run (Ctrl-C, SIGTERM from a scheduler) must not leave its temporary file
+// behind: the signal handler unlinks it (async-signal-safe) and re-raises the signal.
+char g_temporary_path[4096] = {0};
+volatile std::sig_atomic_t g_temporary_set = 0;
+
+extern "C" void remove_temporary_and_reraise(int signal_number) {
+  if (g_temporary_set) ::unlink(g_temporary_path);
+  std::signal(signal_number, SIG_DFL);
+  std::raise(signal_number);
+}
+
+void register_temporary(const std::string& path) {
+  static const bool installed = [] {
+    for (int sig : {SIGINT, SIGTERM, SIGHUP}) std::signal(sig, remove_temporary_and_reraise);
+    return true;
+  }();
+  (void)installed;
+  g_temporary_set = 0;
+  if (path.size() < sizeof g_temporary_path) {
+    std::memcpy(g_temporary_path, path.c_str(), path.size() + 1);
+    g_temporary_set = 1;
+  }
+}
+
+void forget_temporary() { g_temporary_set = 0; }
 
 }  // namespace
 
@@ -387,6 +415,7 @@ OutputWriter::OutputWriter(const std::string& target, const InputDataset& input,
   if (!parent.empty() && !fs::is_directory(parent, ec))
     throw UsageError(target + ": output folder " + parent.string() + " does not exist");
   impl.temporary = target + ".tmp-" + std::to_string(::getpid());
+  register_temporary(impl.temporary);
 
   const GridDescription& grid = input.grid();
   const int time_outer = input.impl().time_outer;
@@ -408,6 +437,7 @@ OutputWriter::OutputWriter(const std::string& target, const InputDataset& input,
   } catch (...) {
     impl.file = NcFile();
     std::remove(impl.temporary.c_str());
+    forget_temporary();
     throw;
   }
 }
@@ -419,6 +449,7 @@ OutputWriter::~OutputWriter() {
     impl_->file = NcFile();
   }
   std::remove(impl_->temporary.c_str());
+  forget_temporary();
 }
 
 std::size_t OutputWriter::n_steps() const {
@@ -554,6 +585,7 @@ void OutputWriter::commit(const QcCounts& qc) {
   if (std::rename(impl.temporary.c_str(), impl.target.c_str()) != 0)
     throw Error(impl.target + ": cannot rename " + impl.temporary + " into place");
   impl.committed = true;
+  forget_temporary();
 }
 
 }  // namespace latentlift
