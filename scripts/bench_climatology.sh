@@ -2,8 +2,9 @@
 # Scaling benchmark of `latentlift climatology`: wall time against MPI ranks (and threads)
 # on this machine, for (A) analyze outputs read back and (B) pressure-level model inputs
 # analysed on the fly. Prints a Markdown table.
-# Usage: scripts/bench_climatology.sh [--ranks "1 2"] [--files N] [--times N] [--ny N] [--nx N] [--keep]
+# Usage: scripts/bench_climatology.sh [--ranks "1 2"] [--group G] [--files N] [--times N] [--ny N] [--nx N] [--keep]
 #   --ranks  rank counts to try under mpirun (default "1 2"; each rank runs 1 thread)
+#   --group  grouping of the statistics (default all; month/hour multiply the state to write by 12/24)
 #   --files/--times/--ny/--nx  size of the generated analyze-like inputs (default 8 x 12 steps on 180 x 240)
 #   --keep   keep the temporary folder and print its path
 # Environment: LATENTLIFT_BUILD (default build/), TMPDIR for the temporary folder.
@@ -12,10 +13,12 @@ set -euo pipefail
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${LATENTLIFT_BUILD:-"$here/build"}
 ranks="1 2"
+group=all
 files=8 times=12 ny=180 nx=240 keep=0
 while [ $# -gt 0 ]; do
   case "$1" in
     --ranks) ranks=$2; shift 2 ;;
+    --group) group=$2; shift 2 ;;
     --files) files=$2; shift 2 ;;
     --times) times=$2; shift 2 ;;
     --ny) ny=$2; shift 2 ;;
@@ -65,14 +68,15 @@ run() {  # run LABEL RANKS THREADS INPUTS...  -> prints a table row
   rm -f "$out"
   start=$(date +%s.%N)
   if [ "$r" = "serial" ]; then
-    "$tool" climatology "$@" -o "$out" --group month --threads "$th" --quiet
+    "$tool" climatology "$@" -o "$out" --group "$group" --threads "$th" --quiet
   else
-    mpirun --oversubscribe -n "$r" "$tool" climatology "$@" -o "$out" --group month --threads "$th" --quiet
+    mpirun --oversubscribe -n "$r" "$tool" climatology "$@" -o "$out" --group "$group" --threads "$th" --quiet
   fi
   end=$(date +%s.%N)
   echo "$label $r $th $start $end"
 }
 
+load_before=$(cut -d' ' -f1-3 /proc/loadavg)
 rows=()
 for th in 1 2; do rows+=("$(run A serial "$th" "$work"/a/*.nc)"); done
 if [ "$have_mpi" -eq 1 ]; then for r in $ranks; do rows+=("$(run A "$r" 1 "$work"/a/*.nc)"); done; fi
@@ -80,7 +84,7 @@ for th in 1 2; do rows+=("$(run B serial "$th" "$work"/b/*.nc)"); done
 if [ "$have_mpi" -eq 1 ]; then for r in $ranks; do rows+=("$(run B "$r" 1 "$work"/b/*.nc)"); done; fi
 
 echo
-echo "bench_climatology on $(nproc) cores ($(uname -m)); --group month"
+echo "bench_climatology on $(nproc) cores ($(uname -m)); --group $group; load average before: $load_before, after: $(cut -d' ' -f1-3 /proc/loadavg)"
 echo "(A) $steps_a analyze-output time steps of $points points; (B) $model_steps model time steps of $model_columns columns (analysis included)"
 echo
 echo "| input | processes | threads each | wall s | time steps/s | grid points x steps / s |"

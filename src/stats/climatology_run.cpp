@@ -26,10 +26,13 @@ namespace {
 using detail::Grid;
 using detail::Settings;
 
-// One input file: an analyze output (read) or a pressure-level model input (analysed here).
+// One input file: an analyze output (read), a pressure-level model input (analysed here), or
+// another climatology file (merged whole on rank 0).
 struct Source {
   std::string path;
   bool analysis_output = true;
+  bool climatology = false;
+  std::vector<std::string> input_files;  // of a climatology input
   Grid grid;
   std::vector<std::int64_t> valid_times;
   Settings settings;
@@ -162,6 +165,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
   std::pair<int, std::string> failure{0, ""};
   std::vector<Source> sources;
   std::vector<Item> items;
+  std::vector<std::int64_t> merged_times;  // valid times of climatology inputs
   std::optional<detail::StatsMetadata> existing;
   detail::StatsMetadata meta;
   RunConfig config;
@@ -183,9 +187,31 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
                          to_string(options.group_by) + " (--group must match the file or be left out)");
       meta.group_by = existing->group_by;
     }
-    bool config_loaded = false;
+    bool config_loaded = false, grouping_fixed = false;
     for (const std::string& path : options.inputs) {
-      if (detail::is_analysis_output(path)) {
+      if (detail::is_stats_file(path)) {
+        const detail::StatsMetadata m = detail::read_stats_metadata(path);
+        if (options.group_given || existing) {
+          if (m.group_by != meta.group_by)
+            throw InputError(path, "", std::string("a climatology grouped by ") + to_string(meta.group_by) +
+                                           ", got one grouped by " + to_string(m.group_by));
+        } else if (!grouping_fixed) {
+          meta.group_by = m.group_by;  // the first climatology input sets the grouping
+        } else if (m.group_by != meta.group_by) {
+          throw InputError(path, "", std::string("a climatology grouped by ") + to_string(meta.group_by) +
+                                         " like the other climatology inputs, got " + to_string(m.group_by));
+        }
+        grouping_fixed = true;
+        Source s;
+        s.path = path;
+        s.analysis_output = false;
+        s.climatology = true;
+        s.grid = m.grid;
+        s.valid_times = m.valid_times;
+        s.settings = m.settings;
+        s.input_files = m.input_files;
+        sources.push_back(std::move(s));
+      } else if (detail::is_analysis_output(path)) {
         Source s;
         s.path = path;
         s.analysis = detail::scan_analysis_output(path);
@@ -226,14 +252,16 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
     for (std::size_t s = 0; s < sources.size(); ++s)
       for (std::size_t t = 0; t < sources[s].valid_times.size(); ++t) {
         const std::int64_t vt = sources[s].valid_times[t];
-        auto [it, inserted] = seen.emplace(vt, sources[s].path + " (time index " + std::to_string(t) + ")");
+        const std::string where = sources[s].climatology ? " (counted there)" : " (time index " + std::to_string(t) + ")";
+        auto [it, inserted] = seen.emplace(vt, sources[s].path + where);
         if (!inserted)
-          throw InputError(sources[s].path, "time",
-                           "each valid time once; " + iso8601(vt) + " (time index " + std::to_string(t) +
-                               ") is also in " + it->second);
-        items.push_back({s, t, vt});
+          throw InputError(sources[s].path, sources[s].climatology ? "valid_time" : "time",
+                           "each valid time once; " + iso8601(vt) + where + " is also in " + it->second);
+        if (!sources[s].climatology) items.push_back({s, t, vt});
+        else merged_times.push_back(vt);
       }
-    if (items.empty()) throw InputError(options.inputs.front(), "time", "at least one time step");
+    if (items.empty() && merged_times.empty())
+      throw InputError(options.inputs.front(), "time", "at least one time step");
   });
   comm::agree(c, failure.first, failure.second);
 
@@ -283,7 +311,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
   reduce_to_root(c, acc);
   ClimatologySummary summary;
   summary.ranks = c.size();
-  summary.time_steps_added = static_cast<long>(items.size());
+  summary.time_steps_added = static_cast<long>(items.size() + merged_times.size());
   if (c.rank() == 0) {
     if (existing) {
       Accumulator total = detail::read_stats_accumulator(options.output, *existing);
@@ -293,9 +321,15 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
       meta.input_files = existing->input_files;
       meta.history = existing->history;
     }
+    for (const Source& src : sources)
+      if (src.climatology) acc.merge(detail::read_stats_accumulator(src.path, detail::read_stats_metadata(src.path)));
     for (const Item& it : items) meta.valid_times.push_back(it.valid_time);
+    meta.valid_times.insert(meta.valid_times.end(), merged_times.begin(), merged_times.end());
     std::sort(meta.valid_times.begin(), meta.valid_times.end());
-    for (const std::string& path : options.inputs) meta.input_files.push_back(path);
+    for (const Source& src : sources) {
+      if (src.climatology) meta.input_files.insert(meta.input_files.end(), src.input_files.begin(), src.input_files.end());
+      else meta.input_files.push_back(src.path);
+    }
     if (!options.command_line.empty()) meta.history += (meta.history.empty() ? "" : "\n") + options.command_line;
     const std::string template_path = existing ? options.output : sources.front().path;
     detail::write_stats(options.output, meta, acc, template_path);

@@ -662,6 +662,11 @@ struct Writer {
 
 }  // namespace
 
+bool is_stats_file(const std::string& path) {
+  Nc nc = Nc::open(path);
+  return !text_att(nc.id(), NC_GLOBAL, "latentlift_climatology_format").empty();
+}
+
 StatsMetadata read_stats_metadata(const std::string& path) {
   Nc nc = Nc::open(path);
   const int id = nc.id();

@@ -75,6 +75,8 @@ struct StatsMetadata {
   std::string history;
 };
 
+/// True when the file is a latentlift climatology (global attribute latentlift_climatology_format).
+bool is_stats_file(const std::string& path);
 /// Metadata of an existing STATS.nc (InputError when it is not a latentlift climatology).
 StatsMetadata read_stats_metadata(const std::string& path);
 /// Its accumulator state (bins must equal field_specs(): InputError otherwise).

@@ -90,6 +90,27 @@ TEST(ClimatologyCommand, UpdateWithTheRestEqualsOneRunOverAll) {
   EXPECT_EQ(same.exit_code, 0) << same.output;
 }
 
+TEST(ClimatologyCommand, MergingTwoClimatologiesEqualsOneRunOverAll) {
+  const std::string dir = t::scratch_dir("clim_merge_files");
+  const std::string inputs = generate(dir, "--levels 2");
+  ASSERT_EQ(climatology(inputs + " -o " + dir + "/whole.nc --group hour").exit_code, 0);
+  ASSERT_EQ(climatology(dir + "/in/analysis_00.nc " + dir + "/in/analysis_02.nc -o " + dir + "/a.nc --group hour").exit_code, 0);
+  ASSERT_EQ(climatology(dir + "/in/analysis_01.nc -o " + dir + "/b.nc --group hour").exit_code, 0);
+  auto merged = climatology(dir + "/a.nc " + dir + "/b.nc -o " + dir + "/merged.nc");  // grouping taken from them
+  ASSERT_EQ(merged.exit_code, 0) << merged.output;
+  auto same = compare(dir + "/whole.nc", dir + "/merged.nc");
+  EXPECT_EQ(same.exit_code, 0) << same.output;
+}
+
+TEST(ClimatologyCommand, MergingClimatologiesThatShareATimeIsRefused) {
+  const std::string dir = t::scratch_dir("clim_merge_overlap");
+  generate(dir, "--files 2");
+  ASSERT_EQ(climatology(dir + "/in/analysis_00.nc -o " + dir + "/a.nc").exit_code, 0);
+  auto r = climatology(dir + "/a.nc " + dir + "/in/analysis_00.nc -o " + dir + "/merged.nc");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.output.find("each valid time once"), std::string::npos) << r.output;
+}
+
 TEST(ClimatologyCommand, ATimeStepAlreadyCountedIsRefused) {
   const std::string dir = t::scratch_dir("clim_duplicate_update");
   generate(dir, "--files 2");
