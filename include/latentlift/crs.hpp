@@ -47,6 +47,8 @@ class Crs {
   const std::string& wkt() const;
   /// ESRI WKT for a .prj file beside an image; empty when ESRI WKT cannot express this CRS.
   const std::string& esri_wkt() const;
+  /// Metres per unit of a projected CRS's x/y (1 for metre-based CRSs); 1 for geographic CRSs.
+  double metres_per_unit() const;
   /// PROJ string (+proj=...), for messages and cs2cs.
   const std::string& proj_string() const;
   /// Complete CF grid_mapping: grid_mapping_name and parameters where CF has them, earth figure, crs_wkt.

@@ -390,6 +390,7 @@ std::shared_ptr<const Crs::Impl> describe(PJ_CONTEXT* context, PJ* input, const 
                               &unit_auth, &unit_code)) {
       std::string d = take_string(direction);
       impl->northing_first = d == "north" || d == "south";
+      impl->unit_factor = factor;
     }
   }
   PjPtr operation(proj_crs_get_coordoperation(context, pj));  // null unless derived (projected, rotated)
@@ -523,6 +524,7 @@ const std::string& Crs::name() const { return impl_->name; }
 const std::string& Crs::wkt() const { return impl_->wkt; }
 const std::string& Crs::esri_wkt() const { return impl_->esri_wkt; }
 const std::string& Crs::proj_string() const { return impl_->proj_string; }
+double Crs::metres_per_unit() const { return impl_->geographic ? 1.0 : impl_->unit_factor; }
 
 Crs Crs::geodetic() const {
   ContextPtr context = detail::make_context();

@@ -46,6 +46,7 @@ struct Crs::Impl {
   std::string name, wkt, esri_wkt, proj_string;
   bool geographic = false, rotated = false;
   bool northing_first = false;  // the CRS's first axis points north/south (e.g. EPSG:4326 lat, lon)
+  double unit_factor = 1.0;     // metres (projected) or radians (geographic) per axis unit
   AttributeList cf;  // CF grid_mapping parameters (without crs_wkt)
   std::string geodetic_definition;
 };

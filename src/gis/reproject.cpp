@@ -82,6 +82,8 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
     throw UsageError(output + " exists; use --overwrite to replace it");
   Crs target_crs = Crs::from_user_text(options.crs);
   if (target_crs.is_rotated_pole()) throw UsageError("--crs must be a geographic or projected CRS, not a rotated pole");
+  if (std::fabs(target_crs.metres_per_unit() - 1.0) > 1e-12)
+    throw UsageError("--crs " + options.crs + " measures x/y in units other than metres; choose a metre-based CRS");
 
   NcFile in = NcFile::open(input);
   auto variables = all_variables(in);

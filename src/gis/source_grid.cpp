@@ -117,7 +117,9 @@ SourceGrid grid_of(const NcFile& file, const VarInfo& field) {
         if (grid.crs->is_geographic())
           throw InputError(file.path(), grid.mapping_variable,
                            "a projected CRS for projection_x/y_coordinate axes, not " + grid.crs->name());
-        double fx = metres_per_unit(file, *xv), fy = metres_per_unit(file, *yv);
+        // Coordinates in the units of the CRS (metres for CF mappings; a crs_wkt may use feet).
+        double fx = metres_per_unit(file, *xv) / grid.crs->metres_per_unit();
+        double fy = metres_per_unit(file, *yv) / grid.crs->metres_per_unit();
         for (double& v : grid.x) v *= fx;
         for (double& v : grid.y) v *= fy;
       } else if (rotated) {

@@ -266,6 +266,14 @@ TEST(Reproject, ExistingOutputNeedsOverwrite) {
     EXPECT_EQ(entry.path().filename().string().find(".tmp"), std::string::npos) << entry.path();
 }
 
+TEST(Reproject, TargetCrsInFeetIsAUsageError) {
+  // EPSG:2263 (a US state plane zone) measures x/y in US survey feet (EPSG dataset).
+  std::string dir = scratch_dir("reproject_feet");
+  std::string in = make_cf_grid(dir, "none");
+  auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --crs EPSG:2263 --resolution 1000");
+  EXPECT_EQ(result.exit_code, 2) << result.output;
+}
+
 TEST(Reproject, MalformedBboxIsAUsageError) {
   std::string dir = scratch_dir("reproject_bbox");
   std::string in = make_cf_grid(dir, "none");
