@@ -11,7 +11,10 @@
 //   services and ECMWF).
 // Tolerances: METHODS (fast pseudo-adiabats within 0.02 K of an accurate integration;
 // CAPE integration converged to 0.5 %).
+#include <fcntl.h>
 #include <gtest/gtest.h>
+#include <sys/file.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
@@ -113,13 +116,25 @@ Reference load_reference() {
   fs::create_directories(dir);
   const std::string out = (dir / "reference.txt").string();
   const std::string script = latentlift::test::test_dir() + "/reference/scipy_reference.py";
-  std::error_code ec;
-  const bool fresh = fs::exists(out) && fs::last_write_time(out, ec) >= fs::last_write_time(script, ec);
-  if (!fresh) {
-    const std::string cmd = py + " " + script + " " + latentlift::test::real_data_dir() + " " + out;
-    auto run = latentlift::test::run_command(cmd);
-    if (run.exit_code != 0) {
-      ref.why_not = "reference script failed: " + cmd + "\n" + run.output;
+  {
+    // One process computes, the others (ctest -j) wait for it on an advisory lock.
+    const std::string lock_path = (dir / "reference.lock").string();
+    const int lock_fd = ::open(lock_path.c_str(), O_CREAT | O_RDWR, 0644);
+    if (lock_fd >= 0) ::flock(lock_fd, LOCK_EX);
+    std::error_code ec;
+    const bool fresh = fs::exists(out) && fs::last_write_time(out, ec) >= fs::last_write_time(script, ec);
+    std::string failure;
+    if (!fresh) {
+      const std::string cmd = py + " " + script + " " + latentlift::test::real_data_dir() + " " + out;
+      auto run = latentlift::test::run_command(cmd);
+      if (run.exit_code != 0) failure = "reference script failed: " + cmd + "\n" + run.output;
+    }
+    if (lock_fd >= 0) {
+      ::flock(lock_fd, LOCK_UN);
+      ::close(lock_fd);
+    }
+    if (!failure.empty()) {
+      ref.why_not = failure;
       return ref;
     }
   }
