@@ -146,6 +146,14 @@ namespace {
 std::unique_ptr<Communicator> make_world() {
 #ifdef LATENTLIFT_HAVE_MPI
   if (launched_by_mpi()) return std::make_unique<MpiCommunicator>();
+#else
+  // Several copies started by a launcher, each believing it is alone, would all do all the work
+  // and race for the same output: refuse instead.
+  for (const char* name : {"OMPI_COMM_WORLD_SIZE", "PMI_SIZE"})
+    if (const char* size = std::getenv(name); size && std::atoi(size) > 1)
+      throw UsageError(std::string("started by an MPI launcher with ") + size +
+                       " processes, but this latentlift was built without MPI (LATENTLIFT_WITH_MPI=OFF or MPI not "
+                       "found): run it without mpirun, or rebuild with MPI");
 #endif
   return std::make_unique<SerialCommunicator>();
 }
