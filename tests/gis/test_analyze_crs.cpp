@@ -21,7 +21,7 @@ std::string sample_grid() { return test_dir() + "/../sample_grids/vessaline_coas
 TEST(AnalyzeOutputCrs, OpensInGdalWithTheModelCrsAndGrid) {
   std::string sample = sample_grid();
   if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid";
-  std::string dir = scratch_dir("analyze_gdal");
+  std::string dir = scratch_dir("gis_analyze_gdal");
   std::string out = dir + "/out.nc";
   auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
   ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
@@ -41,7 +41,7 @@ TEST(AnalyzeOutputCrs, OpensInGdalWithTheModelCrsAndGrid) {
 TEST(AnalyzeOutputCrs, GdallocationinfoMatchesTheColumnCommand) {
   std::string sample = sample_grid();
   if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid";
-  std::string dir = scratch_dir("analyze_column");
+  std::string dir = scratch_dir("gis_analyze_column");
   std::string out = dir + "/out.nc";
   auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
   ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
@@ -77,7 +77,7 @@ TEST(AnalyzeOutputCrs, GdallocationinfoMatchesTheColumnCommand) {
 
 TEST(AnalyzeOutputCrs, UnknownGridMappingIsRefusedWithExitCode2AndNoOutput) {
   if (!fs::exists(sample_grid())) GTEST_SKIP() << "no sample grid";
-  std::string dir = scratch_dir("analyze_bad_mapping");
+  std::string dir = scratch_dir("gis_analyze_bad_mapping");
   std::string bad = dir + "/bad.nc";
   fs::copy_file(sample_grid(), bad);
   auto edit = run_command(python() + " -c \"import netCDF4; d = netCDF4.Dataset('" + bad +

@@ -49,7 +49,7 @@ std::string geographic_of(const std::string& proj) {
 // Every 5th grid point: latentlift's lat/lon vs cs2cs's with GDAL's reading of the mapping.
 void expect_latlon_agrees_with_cs2cs(const std::string& mapping, const std::string& xname,
                                      const std::string& yname, const std::string& extra = "") {
-  std::string dir = scratch_dir("crs_" + mapping);
+  std::string dir = scratch_dir(std::string("gis_crs_") + ::testing::UnitTest::GetInstance()->current_test_info()->name());
   std::string path = make_cf_grid(dir, mapping, extra);
   NativeGrid grid = read_native_grid(path, xname, yname);
   gis::LatLonGrid ours = gis::latlon_of_projected(grid.mapping, grid.x, grid.y, path, "crs");
@@ -130,7 +130,7 @@ TEST(CfGridMapping, CrsWktAloneMatchesCs2csWithin1mm) {
   AttributeList mapping = {{"crs_wkt", text}};
   std::vector<double> x = {300000.0, 500000.0, 712345.678}, y = {4000000.0, 5555555.5};
   auto ours = gis::latlon_of_projected(mapping, x, y);
-  std::string dir = scratch_dir("crs_wkt_alone");
+  std::string dir = scratch_dir("gis_crs_wkt_alone");
   std::ofstream points(dir + "/points.txt");
   points.precision(17);
   for (double yv : y)
@@ -151,7 +151,7 @@ TEST(CfGridMapping, CrsWktAloneMatchesCs2csWithin1mm) {
 // GDAL reads from the CF parameters alone: cs2cs between GDAL's two readings is the identity.
 void expect_completed_mapping_reads_as_the_same_crs(const std::string& mapping, const std::string& xname,
                                                     const std::string& yname, double tolerance) {
-  std::string dir = scratch_dir("complete_" + mapping);
+  std::string dir = scratch_dir("gis_complete_" + mapping);
   std::string cf_only = make_cf_grid(dir, mapping);
   std::string completed = dir + "/completed.nc";
   std::filesystem::copy_file(cf_only, completed);

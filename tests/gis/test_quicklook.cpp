@@ -78,7 +78,7 @@ Grid read_grid(const std::string& path, const std::string& field, const std::str
 }
 
 TEST(Quicklook, PngDecodesWithTheStatedSize) {
-  std::string dir = scratch_dir("quicklook_size");
+  std::string dir = scratch_dir("gis_quicklook_size");
   std::string in = make_cf_grid(dir, "lambert_conformal_conic");
   Drawn d = quicklook(in, dir + "/map.png", "--field mu_cape");
   gis::detail::RgbImage image = gis::detail::read_png(dir + "/map.png");
@@ -88,7 +88,7 @@ TEST(Quicklook, PngDecodesWithTheStatedSize) {
 }
 
 TEST(Quicklook, ColoursMapBackToTheFieldWithinOneColourStep) {
-  std::string dir = scratch_dir("quicklook_colours");
+  std::string dir = scratch_dir("gis_quicklook_colours");
   std::string in = make_cf_grid(dir, "none");  // regular lat/lon, EPSG:4326
   Drawn d = quicklook(in, dir + "/map.png", "--field mu_cape --time 1");
   ASSERT_GT(d.bins, 1) << d.result.output;
@@ -110,7 +110,7 @@ TEST(Quicklook, ColoursMapBackToTheFieldWithinOneColourStep) {
 }
 
 TEST(Quicklook, MissingCellsAreGreyAndOffTheScale) {
-  std::string dir = scratch_dir("quicklook_missing");
+  std::string dir = scratch_dir("gis_quicklook_missing");
   std::string in = make_cf_grid(dir, "none");
   Drawn d = quicklook(in, dir + "/map.png", "--field latent_layer_depth");
   auto image = gis::detail::read_png(dir + "/map.png");
@@ -132,7 +132,7 @@ TEST(Quicklook, MissingCellsAreGreyAndOffTheScale) {
 }
 
 TEST(Quicklook, ClassFieldUsesTheCategoricalColoursOfItsFlagValues) {
-  std::string dir = scratch_dir("quicklook_classes");
+  std::string dir = scratch_dir("gis_quicklook_classes");
   std::string in = make_cf_grid(dir, "none");
   Drawn d = quicklook(in, dir + "/map.png", "--field latent_class");
   EXPECT_EQ(d.bins, 0) << "a class field has a legend, not a colour bar";
@@ -148,7 +148,7 @@ TEST(Quicklook, ClassFieldUsesTheCategoricalColoursOfItsFlagValues) {
 }
 
 TEST(Quicklook, GdalReadsThePngGeoreferencedInTheGridCrs) {
-  std::string dir = scratch_dir("quicklook_gdal");
+  std::string dir = scratch_dir("gis_quicklook_gdal");
   std::string in = make_cf_grid(dir, "lambert_conformal_conic");
   quicklook(in, dir + "/map.png", "--field mu_cape");
   auto info = run_command("gdalinfo " + dir + "/map.png");
@@ -168,14 +168,14 @@ TEST(Quicklook, GdalReadsThePngGeoreferencedInTheGridCrs) {
 
 TEST(Quicklook, TitleGivesTheValidTime) {
   // time = 6 hours since 2031-07-14 00:00:00 at index 1 (make_cf_grid.py).
-  std::string dir = scratch_dir("quicklook_time");
+  std::string dir = scratch_dir("gis_quicklook_time");
   std::string in = make_cf_grid(dir, "mercator");
   Drawn d = quicklook(in, dir + "/map.png", "--field mu_cape --time 1");
   EXPECT_NE(d.result.output.find("valid 2031-07-14 06:00 UTC"), std::string::npos) << d.result.output;
 }
 
 TEST(Quicklook, UnstructuredGridIsDrawnOnALatLonGrid) {
-  std::string dir = scratch_dir("quicklook_unstructured");
+  std::string dir = scratch_dir("gis_quicklook_unstructured");
   std::string in = make_cf_grid(dir, "unstructured");
   Drawn d = quicklook(in, dir + "/map.png", "--field mu_cape");
   EXPECT_TRUE(fs::exists(dir + "/map.pgw"));
@@ -184,7 +184,7 @@ TEST(Quicklook, UnstructuredGridIsDrawnOnALatLonGrid) {
 }
 
 TEST(Quicklook, TimeIndexBeyondTheFileIsAUsageError) {
-  std::string dir = scratch_dir("quicklook_bad_time");
+  std::string dir = scratch_dir("gis_quicklook_bad_time");
   std::string in = make_cf_grid(dir, "none");
   auto result = run_command(binary() + " quicklook " + in + " --field mu_cape --time 5 -o " + dir + "/m.png");
   EXPECT_EQ(result.exit_code, 2) << result.output;
@@ -192,7 +192,7 @@ TEST(Quicklook, TimeIndexBeyondTheFileIsAUsageError) {
 }
 
 TEST(Quicklook, UnknownFieldIsAnInputError) {
-  std::string dir = scratch_dir("quicklook_bad_field");
+  std::string dir = scratch_dir("gis_quicklook_bad_field");
   std::string in = make_cf_grid(dir, "none");
   auto result = run_command(binary() + " quicklook " + in + " --field no_such_field -o " + dir + "/m.png");
   EXPECT_EQ(result.exit_code, 2) << result.output;

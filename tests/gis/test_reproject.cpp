@@ -27,7 +27,7 @@ std::string reproject(const std::string& input, const std::string& output, const
 }
 
 TEST(Reproject, GdalReadsUtmOutputWithExpectedCrsSizeAndGeotransform) {
-  std::string dir = scratch_dir("reproject_utm");
+  std::string dir = scratch_dir("gis_reproject_utm");
   std::string in = make_cf_grid(dir, "lambert_conformal_conic");
   std::string out = dir + "/utm.nc";
   reproject(in, out, "--crs EPSG:32633 --resolution 10000 --bbox 100000,4850000,400000,5100000");
@@ -41,7 +41,7 @@ TEST(Reproject, GdalReadsUtmOutputWithExpectedCrsSizeAndGeotransform) {
 }
 
 TEST(Reproject, GdalReadsLatLonOutputOfARotatedPoleGridAsWgs84) {
-  std::string dir = scratch_dir("reproject_rotated");
+  std::string dir = scratch_dir("gis_reproject_rotated");
   std::string in = make_cf_grid(dir, "rotated_latitude_longitude");
   std::string out = dir + "/ll.nc";
   reproject(in, out, "--crs EPSG:4326 --resolution 0.25 --bbox 0,40,20,60");
@@ -57,7 +57,7 @@ TEST(Reproject, GdalReadsLatLonOutputOfARotatedPoleGridAsWgs84) {
 TEST(Reproject, GdallocationinfoReturnsTheSourceValueOfTheNearestCell) {
   // Nearest-cell resampling: at target cell centres GDAL must report the value of the source cell
   // nearest (in the rotated grid) to that centre, found here independently with latentlift's CRS only.
-  std::string dir = scratch_dir("reproject_location");
+  std::string dir = scratch_dir("gis_reproject_location");
   std::string in = make_cf_grid(dir, "rotated_latitude_longitude");
   std::string out = dir + "/ll.nc";
   const double west = 0, south = 44, cell = 0.2;
@@ -105,7 +105,7 @@ double bilinear_bound(double h, double lx, double ly) {
 }
 
 TEST(Reproject, BilinearErrorOfASmoothFieldIsWithinTheInterpolationBound) {
-  std::string dir = scratch_dir("reproject_bilinear");
+  std::string dir = scratch_dir("gis_reproject_bilinear");
   // Source: lon 0..11.5, lat 40..48.5 every 0.5 degree, no grid_mapping (EPSG:4326); lx = 4, ly = 4.5.
   std::string in = make_cf_grid(dir, "none", "--lx 4 --ly 4.5");
   std::string out = dir + "/fine.nc";
@@ -131,7 +131,7 @@ TEST(Reproject, BilinearErrorOfASmoothFieldIsWithinTheInterpolationBound) {
 }
 
 TEST(Reproject, BilinearErrorInWebMercatorIsWithinTheInterpolationBound) {
-  std::string dir = scratch_dir("reproject_mercator");
+  std::string dir = scratch_dir("gis_reproject_mercator");
   std::string in = make_cf_grid(dir, "none", "--lx 4 --ly 4.5");
   std::string out = dir + "/merc.nc";
   reproject(in, out, "--crs EPSG:3857 --resolution 5000");
@@ -158,7 +158,7 @@ TEST(Reproject, BilinearErrorInWebMercatorIsWithinTheInterpolationBound) {
 TEST(Reproject, GlobalLatLonGridWrapsAcrossTheDateLine) {
   // A global 5-degree grid (lon 0..355): with lx = ly = 180/pi the field is sin(lon) cos(lat), periodic
   // in longitude, so target cells between 355 E and 0 E interpolate across the seam, within the bound.
-  std::string dir = scratch_dir("reproject_global");
+  std::string dir = scratch_dir("gis_reproject_global");
   const double l = 180.0 / kPi;
   std::string in = make_cf_grid(dir, "none", "--grid 0 5 -87.5 5 --nx 72 --ny 36 --lx " + std::to_string(l) +
                                                  " --ly " + std::to_string(l));
@@ -178,7 +178,7 @@ TEST(Reproject, GlobalLatLonGridWrapsAcrossTheDateLine) {
 TEST(Reproject, BilinearIsMissingNextToAMissingSourceCell) {
   // latent_layer_depth is missing at source columns i < 2 and rows j < 2 (lon <= 0.5, lat <= 40.5):
   // any target cell whose lower-left neighbour is such a cell (lon < 1, lat < 41) must be missing.
-  std::string dir = scratch_dir("reproject_missing");
+  std::string dir = scratch_dir("gis_reproject_missing");
   std::string in = make_cf_grid(dir, "none");
   std::string out = dir + "/fine.nc";
   reproject(in, out, "--crs EPSG:4326 --resolution 0.1 --bbox 0,40,3,43");
@@ -202,7 +202,7 @@ std::set<double> values_of(const std::string& path, const std::string& xname, co
 }
 
 TEST(Reproject, ClassesSurviveARoundTripWithOnlyValidClassValues) {
-  std::string dir = scratch_dir("reproject_classes");
+  std::string dir = scratch_dir("gis_reproject_classes");
   std::string in = make_cf_grid(dir, "lambert_conformal_conic");
   std::string utm = dir + "/utm.nc", back = dir + "/back.nc";
   reproject(in, utm, "--crs EPSG:32633 --resolution 7000 --method bilinear");
@@ -220,7 +220,7 @@ TEST(Reproject, ClassesSurviveARoundTripWithOnlyValidClassValues) {
 }
 
 TEST(Reproject, UnstructuredGridUsesTheNearestCellAndIsMissingFarAway) {
-  std::string dir = scratch_dir("reproject_unstructured");
+  std::string dir = scratch_dir("gis_reproject_unstructured");
   std::string in = make_cf_grid(dir, "unstructured");
   std::string out = dir + "/ll.nc";
   reproject(in, out, "--crs EPSG:4326 --resolution 0.25 --bbox -5,35,17,54");
@@ -246,7 +246,7 @@ TEST(Reproject, UnstructuredGridUsesTheNearestCellAndIsMissingFarAway) {
 }
 
 TEST(Reproject, UnknownCrsIsAUsageErrorAndLeavesNoFile) {
-  std::string dir = scratch_dir("reproject_bad_crs");
+  std::string dir = scratch_dir("gis_reproject_bad_crs");
   std::string in = make_cf_grid(dir, "lambert_conformal_conic");
   auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --crs EPSG:999999 --resolution 1");
   EXPECT_EQ(result.exit_code, 2) << result.output;
@@ -255,7 +255,7 @@ TEST(Reproject, UnknownCrsIsAUsageErrorAndLeavesNoFile) {
 }
 
 TEST(Reproject, ExistingOutputNeedsOverwrite) {
-  std::string dir = scratch_dir("reproject_overwrite");
+  std::string dir = scratch_dir("gis_reproject_overwrite");
   std::string in = make_cf_grid(dir, "none");
   std::string out = dir + "/ll.nc";
   reproject(in, out, "--resolution 1");
@@ -268,14 +268,14 @@ TEST(Reproject, ExistingOutputNeedsOverwrite) {
 
 TEST(Reproject, TargetCrsInFeetIsAUsageError) {
   // EPSG:2263 (a US state plane zone) measures x/y in US survey feet (EPSG dataset).
-  std::string dir = scratch_dir("reproject_feet");
+  std::string dir = scratch_dir("gis_reproject_feet");
   std::string in = make_cf_grid(dir, "none");
   auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --crs EPSG:2263 --resolution 1000");
   EXPECT_EQ(result.exit_code, 2) << result.output;
 }
 
 TEST(Reproject, MalformedBboxIsAUsageError) {
-  std::string dir = scratch_dir("reproject_bbox");
+  std::string dir = scratch_dir("gis_reproject_bbox");
   std::string in = make_cf_grid(dir, "none");
   for (const char* bbox : {"1,2,3", "10,40,0,50", "a,b,c,d"}) {
     auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --resolution 1 --bbox " + bbox);
