@@ -41,11 +41,13 @@ const std::vector<OwnedColumn>& pool(int levels_case) {
   return levels_case == 37 ? full : to100;
 }
 
-// args: 0 = buoyancy (0 virtual, 1 temperature), 1 = level fields (0/1), 2 = levels (37 or 27)
+// args: 0 = buoyancy (0 virtual, 1 temperature), 1 = level fields (0/1), 2 = levels (37 or 27),
+// 3 = CAPE/CIN sub-steps per layer (0: the default of AnalysisSettings)
 void BM_AnalyzeColumn(benchmark::State& state) {
   AnalysisSettings s;
   s.buoyancy = state.range(0) == 0 ? BuoyancyMode::virtual_temperature : BuoyancyMode::temperature;
   s.level_fields = state.range(1) != 0;
+  if (state.range(3) > 0) s.cape_substeps = static_cast<int>(state.range(3));
   const auto& columns = pool(static_cast<int>(state.range(2)));
   latentlift::pseudoadiabat::Table::instance();  // build the table outside the timing
   ColumnAnalyzer analyzer(s);
@@ -68,16 +70,21 @@ void BM_AnalyzeColumn(benchmark::State& state) {
   state.counters["columns_per_s"] = benchmark::Counter(static_cast<double>(state.iterations()),
                                                        benchmark::Counter::kIsRate);
   state.SetLabel(std::string(latentlift::to_string(s.buoyancy)) + (s.level_fields ? " +level fields" : " 2-D") +
-                 ", " + std::to_string(state.range(2)) + " levels");
+                 ", " + std::to_string(state.range(2)) + " levels" +
+                 (state.range(3) > 0 ? ", cape_substeps " + std::to_string(state.range(3)) : ""));
 }
 
 BENCHMARK(BM_AnalyzeColumn)
-    ->ArgNames({"temperature_mode", "level_fields", "levels"})
-    ->Args({0, 0, 37})
-    ->Args({0, 1, 37})
-    ->Args({1, 0, 37})
-    ->Args({1, 1, 37})
-    ->Args({0, 0, 27})
+    ->ArgNames({"temperature_mode", "level_fields", "levels", "cape_substeps"})
+    ->Args({0, 0, 37, 0})
+    ->Args({0, 1, 37, 0})
+    ->Args({1, 0, 37, 0})
+    ->Args({1, 1, 37, 0})
+    ->Args({0, 0, 27, 0})
+    // sensitivity of the main case to the CAPE/CIN sub-steps (METHODS: halving them
+    // must change CAPE by < 0.5 %; tests/column checks the default)
+    ->Args({0, 0, 37, 1})
+    ->Args({0, 0, 37, 2})
     ->Unit(benchmark::kNanosecond);
 
 }  // namespace

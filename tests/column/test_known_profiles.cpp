@@ -643,15 +643,20 @@ TEST(KnownProfiles, ExcessGainedOnlyBelowTheLclIsNotLatent) {
 TEST(KnownProfiles, ParcelArrivingWarmAtItsLclIsFlaggedWithLfcAtLcl) {
   const WarmAtLcl w = warm_at_lcl();
   const OwnedColumn c = w.sounding.column();
-  ColumnAnalyzer a(settings_for(BuoyancyMode::temperature));
-  ColumnResult r;
-  a.analyze(c.view(), r);
-  const ParcelAscent asc = a.ascent_from_level(0);
-  EXPECT_NEAR(asc.lcl_pressure_pa, w.lcl_pa, 1.0);
-  EXPECT_TRUE(asc.flagged);
-  EXPECT_GT(asc.max_excess_k, 0.5);
-  EXPECT_NEAR(asc.lfc_pressure_pa, asc.lcl_pressure_pa, 1e-6 * asc.lcl_pressure_pa);
-  EXPECT_EQ(r.levels.latent_flag[0], 1);
+  for (BuoyancyMode mode : kModes) {
+    // (virtual mode: below the LCL parcel and environment share the mixing ratio, so
+    // the parcel is as much warmer in virtual temperature as in temperature)
+    SCOPED_TRACE(to_string(mode));
+    ColumnAnalyzer a(settings_for(mode));
+    ColumnResult r;
+    a.analyze(c.view(), r);
+    const ParcelAscent asc = a.ascent_from_level(0);
+    EXPECT_NEAR(asc.lcl_pressure_pa, w.lcl_pa, 1.0);
+    EXPECT_TRUE(asc.flagged);
+    EXPECT_GT(asc.max_excess_k, 0.5);
+    EXPECT_NEAR(asc.lfc_pressure_pa, asc.lcl_pressure_pa, 1e-6 * asc.lcl_pressure_pa);
+    EXPECT_EQ(r.levels.latent_flag[0], 1);
+  }
 }
 
 // ============================================================ deep instability
