@@ -837,7 +837,6 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   put_text(nc, v_time, "long_name", climatological ? "climatological time of the group" : "time", tmp);
   put_text(nc, v_time, "units", kTimeUnits, tmp);
   put_text(nc, v_time, "calendar", "standard", tmp);
-  put_text(nc, v_time, "axis", "T", tmp);
   const char* bounds_name = climatological ? "climatology_bounds" : "time_bnds";
   put_text(nc, v_time, climatological ? "climatology" : "bounds", bounds_name, tmp);
   const int v_bounds = w.def_var(bounds_name, NC_DOUBLE, {dim_group, dim_nv});
