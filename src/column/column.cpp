@@ -24,7 +24,7 @@
 #include <cmath>
 #include <cstdint>
 #include <cstring>
-#include <deque>
+#include <memory>
 #include <limits>
 #include <numeric>
 #include <stdexcept>
@@ -153,11 +153,11 @@ class RowCache {
         if (rows_.size() >= kMaxRows) return nullptr;  // not a fixed-level grid: 2-D look-ups
         slots_[slot] = static_cast<int>(rows_.size());
         keys_[slot] = key;
-        rows_.emplace_back();
-        table.cut(lnp, rows_.back());
-        return &rows_.back();
+        rows_.push_back(std::make_unique<Table::Row>());
+        table.cut(lnp, *rows_.back());
+        return rows_.back().get();
       }
-      if (keys_[slot] == key) return &rows_[static_cast<std::size_t>(slots_[slot])];
+      if (keys_[slot] == key) return rows_[static_cast<std::size_t>(slots_[slot])].get();
     }
     return nullptr;
   }
@@ -167,7 +167,7 @@ class RowCache {
   static constexpr std::size_t kMaxRows = 256;  // about 1.8 MB of cuts per analyzer
   std::vector<int> slots_ = std::vector<int>(kSlots, -1);
   std::vector<std::uint64_t> keys_ = std::vector<std::uint64_t>(kSlots, 0);
-  std::deque<Table::Row> rows_;  // stable addresses
+  std::vector<std::unique_ptr<Table::Row>> rows_;
 };
 
 struct Parcel {
@@ -374,7 +374,10 @@ struct ColumnAnalyzer::Impl {
     for (int k = k_start; k + 1 < n_an; ++k) {
       const double hi = levels[k].lnp, lo = levels[k + 1].lnp;
       if (xa <= lo) continue;
-      const int n = std::max(1, static_cast<int>(std::ceil(substeps * (xa - lo) / (hi - lo) - 1e-9)));
+      const double share = substeps * (xa - lo) / (hi - lo);  // pieces of this layer left, rounded up
+      int n = static_cast<int>(share);
+      if (n < share - 1e-9) ++n;
+      n = std::max(n, 1);
       for (int i = 1; i <= n; ++i) {
         const double xb = i == n ? lo : xa - (xa - lo) / (n - i + 1);
         if (pc.lcl_lnp < xa && pc.lcl_lnp > xb) {  // the LCL is a node of the walk

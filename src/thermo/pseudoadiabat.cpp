@@ -60,16 +60,19 @@ const double kLnReference = std::log(thermo::kReferencePressurePa);
 // Cubic Lagrange weights for nodes -1, 0, 1, 2 at fraction t in [0, 1], and their derivatives.
 inline void cubic_weights(double t, double w[4]) {
   const double tm1 = t - 1.0, tm2 = t - 2.0, tp1 = t + 1.0;
-  w[0] = -t * tm1 * tm2 / 6.0;
-  w[1] = tp1 * tm1 * tm2 / 2.0;
-  w[2] = -tp1 * t * tm2 / 2.0;
-  w[3] = tp1 * t * tm1 / 6.0;
+  constexpr double kSixth = 1.0 / 6.0;
+  w[0] = -t * tm1 * tm2 * kSixth;
+  w[1] = tp1 * tm1 * tm2 * 0.5;
+  w[2] = -tp1 * t * tm2 * 0.5;
+  w[3] = tp1 * t * tm1 * kSixth;
 }
 inline void cubic_derivative_weights(double t, double d[4]) {
-  d[0] = -(3 * t * t - 6 * t + 2) / 6.0;
-  d[1] = (3 * t * t - 4 * t - 1) / 2.0;
-  d[2] = -(3 * t * t - 2 * t - 2) / 2.0;
-  d[3] = (3 * t * t - 1) / 6.0;
+  constexpr double kSixth = 1.0 / 6.0;
+  const double t2 = 3 * t * t;
+  d[0] = -(t2 - 6 * t + 2) * kSixth;
+  d[1] = (t2 - 4 * t - 1) * 0.5;
+  d[2] = -(t2 - 2 * t - 2) * 0.5;
+  d[3] = (t2 - 1) * kSixth;
 }
 // First stencil node and fraction for coordinate x on a grid of n nodes.
 inline int stencil(double x, double x0, double dx, int n, double& t) {
