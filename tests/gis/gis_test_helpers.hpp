@@ -3,6 +3,7 @@
 
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -51,7 +52,8 @@ inline Field read_field(const std::string& path, const std::string& name, const 
   f.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
   auto var = *gis::detail::find_variable(file, name);
   f.values = gis::detail::read_doubles(file, var);
-  f.fill = gis::detail::number_attribute(file, var.id, "_FillValue")->front();
+  auto fill = gis::detail::number_attribute(file, var.id, "_FillValue");
+  f.fill = fill ? fill->front() : std::nan("");
   return f;
 }
 

@@ -6,6 +6,7 @@
 #include <filesystem>
 #include <string>
 
+#include "gis/netcdf_crs.hpp"
 #include "gis/netcdf_file.hpp"
 #include "gis_test_helpers.hpp"
 #include "latentlift/crs.hpp"
@@ -87,6 +88,38 @@ TEST(AnalyzeOutputCrs, UnknownGridMappingIsRefusedWithExitCode2AndNoOutput) {
   EXPECT_EQ(analyze.exit_code, 2) << analyze.output;
   EXPECT_NE(analyze.output.find("grid_mapping_name"), std::string::npos) << analyze.output;
   EXPECT_FALSE(fs::exists(dir + "/out.nc"));
+}
+
+TEST(AnalyzeOutputCrs, LatLonAddedToAProjectedGridAgreeWithProjAndKeepGdalOnTheGrid) {
+  // The writer helpers for projected inputs without 2-D lat/lon: the variables hold PROJ's lat/lon of
+  // each cell centre, and GDAL still reads the file on its projected grid (not as geolocation arrays).
+  std::string dir = scratch_dir("gis_latlon_added");
+  std::string in = make_cf_grid(dir, "polar_stereographic");
+  std::string out = dir + "/with_latlon.nc";
+  fs::copy_file(in, out);
+  int ncid = -1, varid = -1;
+  ASSERT_EQ(nc_open(out.c_str(), NC_WRITE, &ncid), NC_NOERR);
+  ASSERT_EQ(nc_redef(ncid), NC_NOERR);
+  auto ids = gis::define_latlon_variables(ncid, "y", "x", out);
+  ASSERT_EQ(nc_inq_varid(ncid, "mu_cape", &varid), NC_NOERR);
+  ASSERT_EQ(nc_put_att_text(ncid, varid, "coordinates", 7, "lat lon"), NC_NOERR);
+  ASSERT_EQ(nc_enddef(ncid), NC_NOERR);
+  gis::write_latlon_variables(ncid, "x", "y", "crs", ncid, ids, out);
+  ASSERT_EQ(nc_close(ncid), NC_NOERR);
+
+  Field f = read_field(out, "mu_cape", "x", "y");
+  Field lat = read_field(out, "lat", "x", "y"), lon = read_field(out, "lon", "x", "y");
+  auto file = NcFile::open(out);
+  auto expected = gis::latlon_of_projected(
+      gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id), f.x, f.y);
+  for (std::size_t k = 0; k < expected.latitude_deg.size(); ++k) {
+    EXPECT_DOUBLE_EQ(lat.values[k], expected.latitude_deg[k]);
+    EXPECT_DOUBLE_EQ(lon.values[k], expected.longitude_deg[k]);
+  }
+  GdalInfo info = gdal_info(out, "mu_cape", "Polar Stereographic");
+  ASSERT_EQ(info.numbers.size(), 9u);
+  EXPECT_NEAR(info.numbers[2], f.x.front() - (f.x[1] - f.x[0]) / 2, 1e-6);
+  EXPECT_EQ(info.numbers[8], 1);
 }
 
 }  // namespace
