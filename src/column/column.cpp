@@ -516,10 +516,8 @@ struct ColumnAnalyzer::Impl {
           break;
       }
       if (in.humidity_kind == HumidityKind::specific_humidity || in.humidity_kind == HumidityKind::mixing_ratio) {
-        if (e > es) {
-          ++qc.humidity_clipped;
-          e = es;
-        }
+        if (e > es * (1.0 + 1e-9)) ++qc.humidity_clipped;  // exactly saturated input is not clipping
+        e = std::min(e, es);
       }
       if (e < kMinRelativeHumidity * es) {  // zero or negative humidity
         ++qc.humidity_clipped;
