@@ -57,6 +57,10 @@ class InputDataset {
   /// The variables used, one per quantity (temperature, humidity, geopotential, surface pressure).
   std::vector<QuantitySource> sources() const;
 
+  /// Size the chunk caches of compressed/chunked inputs so that reading blocks of this many
+  /// columns decompresses each chunk once per step (capped at 256 MiB per variable).
+  void prepare_block_reads(std::size_t block_columns) const;
+
   /// Read columns `range` of outer step `step` into block (resized as needed).
   /// Thread-safe (serialised on the netCDF lock); InputError when a read fails.
   void read_block(std::size_t step, ColumnRange range, ColumnBlock& block) const;

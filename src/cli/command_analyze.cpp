@@ -3,6 +3,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cstdio>
 #include <string>
 #include <vector>
@@ -39,7 +40,10 @@ int run_analyze(const AnalyzeArgs& args) {
   options.threads = args.threads;
   const bool progress = !args.quiet && isatty(fileno(stderr));
   if (progress)
-    options.progress = [](const Progress& p) {
+    options.progress = [last = std::chrono::steady_clock::time_point{}](const Progress& p) mutable {
+      const auto now = std::chrono::steady_clock::now();  // at most ten updates a second
+      if (p.columns_done < p.n_columns && now - last < std::chrono::milliseconds(100)) return;
+      last = now;
       std::fprintf(stderr, "\ranalyze: step %zu/%zu, columns %zu/%zu (%3.0f%%)   ", p.step + 1, p.n_steps,
                    p.columns_done, p.n_columns, 100.0 * p.columns_done / std::max<std::size_t>(1, p.n_columns));
       std::fflush(stderr);

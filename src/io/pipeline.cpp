@@ -117,6 +117,7 @@ class Runner {
     const int n = parallel::max_threads();
     for (int i = 0; i < n; ++i) analyzers_.push_back(std::make_unique<ColumnAnalyzer>(settings_));
     blocks_ = column_blocks(grid_, options.config.block_columns);
+    input_.prepare_block_reads(options.config.block_columns);
     std::size_t largest = 0;
     for (const ColumnRange& b : blocks_) largest = std::max(largest, b.count);
     results_.resize(largest);

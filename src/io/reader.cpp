@@ -116,7 +116,7 @@ std::vector<DimRole> classify(int ncid, int varid, const VarShape& shape, int& v
       roles[i] = DimRole::outer;
     } else if ((coord >= 0 && is_horizontal_coordinate(ncid, coord)) || aux_dims.count(dim)) {
       roles[i] = DimRole::horizontal;
-    } else if (coord < 0 && is_one_of(dim, {"x", "y", "cell", "cells", "ncells", "nCells", "ncol", "node",
+    } else if (is_one_of(dim, {"x", "y", "cell", "cells", "ncells", "nCells", "ncol", "node",
                                             "nod2", "west_east", "south_north", "rlat", "rlon", "lat",
                                             "lon", "latitude", "longitude", "xc", "yc"})) {
       roles[i] = DimRole::horizontal;
@@ -807,6 +807,45 @@ void InputDataset::read_block(std::size_t step, ColumnRange range, ColumnBlock& 
   } else {
     block.surface_pressure_pa.clear();
   }
+}
+
+void InputDataset::prepare_block_reads(std::size_t block_columns) const {
+  const Impl& impl = *impl_;
+  const GridDescription& grid = impl.grid;
+  constexpr double kCapBytes = 256.0 * 1024 * 1024;
+  std::size_t rows = 1, cols = std::min(block_columns, grid.n_columns);
+  if (grid.horizontal.size() == 2) {
+    const std::size_t nx = grid.horizontal[1].length;
+    rows = block_columns >= nx ? std::min(grid.horizontal[0].length, block_columns / nx) : 1;
+    cols = block_columns >= nx ? nx : block_columns;
+  }
+  std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+  for (const Segment& segment : impl.segments)
+    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
+      if (!var->present()) continue;
+      const int ncid = impl.files[var->file].id();
+      const std::size_t ndims = var->shape.lengths.size();
+      int storage = 0;
+      std::vector<size_t> chunks(std::max<std::size_t>(1, ndims));
+      if (nc_inq_var_chunking(ncid, var->varid, &storage, chunks.data()) != NC_NOERR || storage != NC_CHUNKED) continue;
+      size_t type_size = 0;
+      nc_inq_type(ncid, var->type, nullptr, &type_size);
+      double chunk_bytes = static_cast<double>(type_size), touched = 1.0;
+      for (std::size_t i = 0; i < ndims; ++i) {
+        const std::size_t length = var->shape.lengths[i];
+        std::size_t count = 1;
+        if (var->roles[i] == DimRole::vertical) count = length;
+        if (var->roles[i] == DimRole::horizontal)
+          count = (grid.horizontal.size() == 2 && var->grid_dim[i] == 0) ? rows : cols;
+        const std::size_t chunk = std::max<size_t>(1, chunks[i]);
+        chunk_bytes *= static_cast<double>(chunk);
+        std::size_t across = (count + chunk - 1) / chunk + (count < length ? 1 : 0);  // +1: misaligned blocks
+        touched *= static_cast<double>(std::min(across, (length + chunk - 1) / chunk));
+      }
+      const double wanted = std::min(kCapBytes, 1.1 * touched * chunk_bytes);
+      if (wanted > 16.0 * 1024 * 1024)  // the library default suffices for small chunks
+        nc_set_var_chunk_cache(ncid, var->varid, static_cast<size_t>(wanted), 100003, 0.75f);
+    }
 }
 
 void InputDataset::throw_all_missing(std::size_t step, bool any_temp, bool any_humidity, bool any_height) const {

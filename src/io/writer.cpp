@@ -275,6 +275,8 @@ void OutputWriter::Impl::define(const InputDataset& in) {
                       {"bounds", "_FillValue", "missing_value", "scale_factor", "add_offset", "valid_range",
                        "valid_min", "valid_max", "units"});
       put_text(out, time_var, "units", grid.time_units, path);
+      if (!d::has_attribute(out, time_var, "standard_name")) put_text(out, time_var, "standard_name", "time", path);
+      if (!d::has_attribute(out, time_var, "axis")) put_text(out, time_var, "axis", "T", path);
     } else {
       copy_var(coord);
     }
