@@ -74,7 +74,8 @@ void add_climatology_command(CLI::App& app, int& exit_code) {
   auto args = std::make_shared<ClimatologyArgs>();
   CLI::App* cmd = app.add_subcommand(
       "climatology", "Per-grid-point instability statistics over many time steps (mergeable; MPI under mpirun)");
-  cmd->add_option("inputs", args->inputs, "latentlift analyze outputs, pressure-level model inputs (analysed here) or climatology files (merged)")
+  cmd->add_option("inputs", args->inputs,
+                  "latentlift analyze outputs, pressure-level model inputs (analysed here) or climatology files (merged)")
       ->required()
       ->check(CLI::ExistingFile);
   cmd->add_option("-o,--output", args->output, "Statistics file (STATS.nc)")->required();
