@@ -9,6 +9,7 @@
 #include <filesystem>
 #include <map>
 #include <memory>
+#include <new>
 #include <optional>
 
 #include "latentlift/climatology.hpp"
@@ -154,6 +155,26 @@ void reduce_to_root(comm::Communicator& c, Accumulator& acc) {
   }
 }
 
+// The whole state of the grid, or an Error saying how much memory it needs.
+Accumulator make_accumulator(const detail::StatsMetadata& meta) {
+  try {
+    return Accumulator(meta.group_by, meta.grid.points, static_cast<int>(meta.grid.levels));
+  } catch (const std::bad_alloc&) {
+    const double bytes_per_cell = 3 * 4 + kFieldCount * 28 + 4.0 * [] {
+      int bins = 0;
+      for (const auto& s : field_specs()) bins += s.bin_count();
+      return bins;
+    }() + 4.0 * kStabilityClassCount * meta.grid.levels;
+    char text[200];
+    std::snprintf(text, sizeof text,
+                  "climatology: not enough memory for the statistics of %zu grid points x %d groups "
+                  "(about %.1f GB per process)",
+                  meta.grid.points, group_count(meta.group_by),
+                  bytes_per_cell * meta.grid.points * group_count(meta.group_by) / 1e9);
+    throw Error(text);
+  }
+}
+
 }  // namespace
 
 ClimatologySummary run_climatology(const ClimatologyOptions& options) {
@@ -266,9 +287,10 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
   comm::agree(c, failure.first, failure.second);
 
   // ---- phase 2 (every rank, its share): accumulate ------------------------------------
-  Accumulator acc(meta.group_by, meta.grid.points, static_cast<int>(meta.grid.levels));
+  Accumulator acc;
   const comm::Range mine = comm::partition(items.size(), c.rank(), c.size());
   failure = comm::capture([&] {
+    acc = make_accumulator(meta);
     std::size_t i = mine.begin;
     detail::StepBuffers buffers;
     while (i < mine.end) {
