@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "io/dataset_impl.hpp"
+#include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift {
@@ -864,9 +865,40 @@ void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<doub
   const Impl& impl = *impl_;
   const GridDescription& grid = impl.grid;
   const NcFile& file = impl.files[impl.grid_file];
-  if (impl.lat_var.empty() || impl.lon_var.empty())
-    throw InputError(file.path(), "", "latitude and longitude coordinates (units degrees_north/degrees_east)");
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+  if ((impl.lat_var.empty() || impl.lon_var.empty()) && grid.kind == HorizontalKind::projected &&
+      !grid.grid_mapping.empty() && d::coordinate_var(file.id(), grid.horizontal[0].name) >= 0 &&
+      d::coordinate_var(file.id(), grid.horizontal[1].name) >= 0) {
+    // No 2-D lat/lon in the file: derive them from the grid mapping and the 1-D x/y (PROJ).
+    const int mapping = d::find_var(file.id(), grid.grid_mapping);
+    gis::AttributeList attributes;
+    int natts = 0;
+    nc_inq_varnatts(file.id(), mapping, &natts);
+    for (int a = 0; a < natts; ++a) {
+      char name[NC_MAX_NAME + 1] = {0};
+      nc_inq_attname(file.id(), mapping, a, name);
+      std::vector<double> numbers = d::number_attribute(file.id(), mapping, name);
+      if (!numbers.empty())
+        attributes.push_back({name, numbers});
+      else
+        attributes.push_back({name, d::text_attribute(file.id(), mapping, name)});
+    }
+    const int y_var = d::coordinate_var(file.id(), grid.horizontal[0].name);
+    const int x_var = d::coordinate_var(file.id(), grid.horizontal[1].name);
+    std::vector<double> y = d::read_all_doubles(file.id(), y_var, file.path());
+    std::vector<double> x = d::read_all_doubles(file.id(), x_var, file.path());
+    for (auto [var, values] : {std::pair<int, std::vector<double>*>{x_var, &x}, {y_var, &y}}) {
+      std::string units = d::text_attribute(file.id(), var, "units");
+      if (!units.empty() && d::convertible(units, "m")) d::UnitConverter(units, "m").convert(values->data(), values->size());
+    }
+    gis::LatLonGrid latlon = gis::latlon_of_projected(attributes, x, y, file.path(), grid.grid_mapping);
+    lat_deg = latlon.latitude_deg;
+    lon_deg = latlon.longitude_deg;
+    return;
+  }
+  if (impl.lat_var.empty() || impl.lon_var.empty())
+    throw InputError(file.path(), "", "latitude and longitude coordinates (units degrees_north/degrees_east), or "
+                                      "projected x/y with a grid_mapping");
   auto read = [&](const std::string& name, std::vector<double>& out) {
     int varid = d::find_var(file.id(), name);
     VarShape shape = d::var_shape(file.id(), varid);

@@ -287,6 +287,30 @@ TEST_F(Reader, ReadsProjectedGridsWithTwoDimensionalLatLonAndGridMapping) {
   EXPECT_NEAR(block.height_m[0], 1000.0, 1e-3);  // 9806.65 m2 s-2 stored as float
 }
 
+TEST_F(Reader, DerivesLatLonOfAProjectedGridWithoutThemFromTheGridMapping) {
+  test::Dims dims = {{"plev", 3}, {"y", 2}, {"x", 3}};
+  std::vector<Var> vars = {
+      {"plev", NC_DOUBLE, {"plev"}, {{"units", "hPa"}}, {1000, 850, 700}},
+      {"x", NC_DOUBLE, {"x"}, {{"units", "km"}, {"standard_name", "projection_x_coordinate"}}, {0, 50, 100}},
+      {"y", NC_DOUBLE, {"y"}, {{"units", "km"}, {"standard_name", "projection_y_coordinate"}}, {100, 200}},
+      {"lcc", NC_INT, {}, {{"grid_mapping_name", "lambert_conformal_conic"}, {"standard_parallel", "", {35.0, 47.0}, NC_DOUBLE},
+                           {"longitude_of_central_meridian", "", {10.0}, NC_DOUBLE}, {"latitude_of_projection_origin", "", {40.0}, NC_DOUBLE},
+                           {"earth_radius", "", {6371229.0}, NC_DOUBLE}}, {}},
+      {"t", NC_FLOAT, {"plev", "y", "x"}, {{"units", "K"}, {"grid_mapping", "lcc"}}, std::vector<double>(18, 280.0)},
+      {"q", NC_FLOAT, {"plev", "y", "x"}, {{"units", "kg kg-1"}, {"grid_mapping", "lcc"}}, std::vector<double>(18, 0.004)},
+      {"z", NC_FLOAT, {"plev", "y", "x"}, {{"units", "m"}, {"grid_mapping", "lcc"}}, std::vector<double>(18, 1000.0)},
+  };
+  test::write_nc(path("in.nc"), dims, vars);
+  InputDataset input({path("in.nc")}, {{"air_temperature", {"t"}}, {"specific_humidity", {"q"}}, {"geopotential_height", {"z"}}});
+  std::vector<double> lats, lons;
+  input.column_lat_lon(lats, lons);
+  ASSERT_EQ(lats.size(), 6u);
+  // x = 100 km, y = 200 km, by PROJ's cs2cs: echo "100000 200000" | cs2cs +proj=lcc +lat_1=35 +lat_2=47
+  //   +lat_0=40 +lon_0=10 +R=6371229 +units=m +to +proj=longlat +R=6371229 -f %.6f  ->  11.212966 41.802120
+  EXPECT_NEAR(lats[1 * 3 + 2], 41.802120, 1e-5);
+  EXPECT_NEAR(lons[1 * 3 + 2], 11.212966, 1e-5);
+}
+
 TEST_F(Reader, JoinsSeveralFilesAlongTime) {
   SmallGrid g;
   std::vector<Var> first = g.standard(), second = g.standard();
