@@ -23,11 +23,15 @@ struct Att {
 };
 
 struct Var {
+  Var(std::string n, nc_type t, std::vector<std::string> d, std::vector<Att> a, std::vector<double> values = {})
+      : name(std::move(n)), type(t), dims(std::move(d)), atts(std::move(a)), data(std::move(values)) {}
   std::string name;
   nc_type type = NC_FLOAT;
   std::vector<std::string> dims;
   std::vector<Att> atts;
   std::vector<double> data;     // in the variable's dimension order (empty: leave unwritten)
+  std::vector<size_t> chunks;   // NetCDF-4 chunk sizes (empty: library default)
+  int deflate_level = 0;        // NetCDF-4 deflate level (0: none)
 };
 
 using Dims = std::vector<std::pair<std::string, std::size_t>>;
@@ -75,6 +79,8 @@ inline void write_nc(const std::string& path, const Dims& dims, const std::vecto
     for (const std::string& d : v.dims) ids.push_back(dim_id.at(d));
     int id = -1;
     nc_ok(nc_def_var(ncid, v.name.c_str(), v.type, static_cast<int>(ids.size()), ids.data(), &id), "var " + v.name);
+    if (!v.chunks.empty()) nc_ok(nc_def_var_chunking(ncid, id, NC_CHUNKED, v.chunks.data()), "chunking " + v.name);
+    if (v.deflate_level > 0) nc_ok(nc_def_var_deflate(ncid, id, 1, 1, v.deflate_level), "deflate " + v.name);
     for (const Att& a : v.atts) {
       if (a.numbers.empty())
         nc_ok(nc_put_att_text(ncid, id, a.name.c_str(), a.text.size(), a.text.c_str()), "att " + a.name);

@@ -128,6 +128,23 @@ TEST_F(Pipeline, TheFileHoldsWhatTheInMemoryApiReturns) {
   nc_close(ncid);
 }
 
+TEST_F(Pipeline, WritesOnlyTheChosenTimeIndicesToTheFile) {
+  std::vector<FieldSet> fields = in_memory(2, 1000);
+  PipelineOptions options;
+  options.config = config;
+  options.time_indices = {1};
+  InputDataset input({input_path}, config.aliases);
+  RunSummary summary = analyze_to_file(input, dir + "/one.nc", options, {});
+  EXPECT_EQ(summary.steps, 1u);
+  int ncid = -1, var = -1;
+  ASSERT_EQ(nc_open((dir + "/one.nc").c_str(), NC_NOWRITE, &ncid), NC_NOERR);
+  ASSERT_EQ(nc_inq_varid(ncid, "mu_theta_w", &var), NC_NOERR);
+  std::vector<float> theta(35);
+  nc_get_var_float(ncid, var, theta.data());
+  EXPECT_EQ(theta[20], fields[1].real.at("mu_theta_w")[20]);
+  nc_close(ncid);
+}
+
 TEST_F(Pipeline, AnalysesOnlyTheChosenTimeIndices) {
   PipelineOptions options;
   options.config = config;

@@ -218,6 +218,27 @@ TEST_F(Reader, ReadsBlocksThatMatchTheWholeGrid) {
   }
 }
 
+TEST_F(Reader, ReadsDeflatedInputChunkedByLevelMapsBlockByBlock) {
+  std::vector<Var> vars = grid.standard();
+  for (std::size_t v = 4; v < 7; ++v) {
+    vars[v].chunks = {1, 1, 3, 4};
+    vars[v].deflate_level = 4;
+  }
+  test::write_nc(path("deflated.nc"), grid.dims, vars);
+  test::write_nc(path("plain.nc"), grid.dims, grid.standard());
+  InputDataset deflated({path("deflated.nc")}, no_aliases());
+  InputDataset plain({path("plain.nc")}, no_aliases());
+  deflated.prepare_block_reads(4);
+  ColumnBlock a, b;
+  for (const ColumnRange& range : column_blocks(deflated.grid(), 4)) {
+    deflated.read_block(1, range, a);
+    plain.read_block(1, range, b);
+    EXPECT_EQ(a.temp_k, b.temp_k);
+    EXPECT_EQ(a.humidity, b.humidity);
+    EXPECT_EQ(a.height_m, b.height_m);
+  }
+}
+
 TEST_F(Reader, AcceptsInputWithoutATimeDimension) {
   SmallGrid g;
   g.dims = {{"level", 4}, {"lat", 3}, {"lon", 4}};
