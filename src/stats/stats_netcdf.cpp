@@ -10,6 +10,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <csignal>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -637,6 +638,38 @@ std::vector<int> template_vars(int nc, const Grid& grid, const std::set<std::str
   return result;
 }
 
+// An interrupted run (Ctrl-C, SIGTERM from a scheduler) must not leave STATS.nc's temporary
+// file behind: the handler unlinks it (async-signal-safe) and passes the signal on to the
+// handler it replaced (another module's, or the default action).
+char g_temporary_path[4096] = {0};
+volatile std::sig_atomic_t g_temporary_set = 0;
+using Handler = void (*)(int);
+Handler g_previous[3] = {SIG_DFL, SIG_DFL, SIG_DFL};
+constexpr int kSignals[3] = {SIGINT, SIGTERM, SIGHUP};
+
+extern "C" void remove_stats_temporary(int signal_number) {
+  if (g_temporary_set) ::unlink(g_temporary_path);
+  for (int i = 0; i < 3; ++i)
+    if (kSignals[i] == signal_number) {
+      Handler previous = g_previous[i] == SIG_ERR || g_previous[i] == SIG_IGN ? SIG_DFL : g_previous[i];
+      std::signal(signal_number, previous);
+    }
+  std::raise(signal_number);
+}
+
+void register_temporary(const std::string& path) {
+  static const bool installed = [] {
+    for (int i = 0; i < 3; ++i) g_previous[i] = std::signal(kSignals[i], remove_stats_temporary);
+    return true;
+  }();
+  (void)installed;
+  g_temporary_set = 0;
+  if (path.size() < sizeof g_temporary_path) {
+    std::memcpy(g_temporary_path, path.c_str(), path.size() + 1);
+    g_temporary_set = 1;
+  }
+}
+
 struct Writer {
   int nc;
   std::string path;
@@ -777,9 +810,11 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     std::string file;
     bool keep = false;
     ~Cleanup() {
+      g_temporary_set = 0;
       if (!keep) std::remove(file.c_str());
     }
   } cleanup{tmp};
+  register_temporary(tmp);
 
   const Grid& grid = meta.grid;
   const int groups = acc.groups();
