@@ -29,6 +29,7 @@ struct VarRef {
   std::vector<double> fills;     // raw values meaning missing
   double valid_min = -HUGE_VAL, valid_max = HUGE_VAL;  // raw
   double scale = 1.0, offset = 0.0;  // SI = raw * scale + offset (unpacking, units and 1/g folded in)
+  bool global_time = false;      // indexed by the time index over all files (not the segment's own)
   bool present() const { return varid >= 0; }
 };
 

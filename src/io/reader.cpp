@@ -620,6 +620,16 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
         auto it = std::find(var->shape.names.begin(), var->shape.names.end(), time_dim);
         if (it == var->shape.names.end()) continue;  // static field: broadcast over time
         std::size_t length = var->shape.lengths[it - var->shape.names.begin()];
+        if (impl.segments.size() > 1 && length == grid.n_times && length != segment.time_length) {
+          // One file with every time step beside one file per time step: index it by the global time.
+          var->global_time = true;
+          const NcFile& b = impl.files[var->file];
+          if (!grid.time_values.empty() && d::coordinate_var(b.id(), time_dim) >= 0 &&
+              d::text_attribute(b.id(), d::find_var(b.id(), time_dim), "units") == grid.time_units &&
+              !same_values(coordinate_values(b, time_dim), grid.time_values))
+            throw InputError(b.path(), var->name, "the same times as the files with air temperature");
+          continue;
+        }
         if (length != segment.time_length)
           throw InputError(paths[var->file], var->name,
                            std::to_string(segment.time_length) + " time steps like " + paths[segment.temp.file] +
@@ -720,7 +730,7 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
       case DimRole::outer:
         if (var.grid_dim[i] >= 0) {
           const int o = var.grid_dim[i];
-          start[i] = (o == impl.time_outer) ? local_time : outer_index[o];
+          start[i] = (o != impl.time_outer) ? outer_index[o] : var.global_time ? outer_index[o] : local_time;
         }
         break;
     }

@@ -362,6 +362,28 @@ TEST_F(Reader, TakesSurfacePressureFromASeparateFile) {
   EXPECT_DOUBLE_EQ(block.surface_pressure_pa[3], 95300.0);
 }
 
+TEST_F(Reader, PairsOneSurfaceFileWithAllTimesWithOneFilePerTimeStep) {
+  SmallGrid one;
+  one.dims = {{"time", 1}, {"level", 4}, {"lat", 3}, {"lon", 4}};
+  for (int t = 0; t < 2; ++t) {
+    std::vector<Var> vars = one.standard();
+    vars[0].data = {6.0 * t};
+    for (std::size_t v = 4; v < 7; ++v)
+      for (double& x : vars[v].data) x += t;
+    test::write_nc(path("pl" + std::to_string(t) + ".nc"), one.dims, vars);
+  }
+  std::vector<Var> sfc = grid.coordinates();
+  sfc.erase(sfc.begin() + 1);
+  sfc.push_back(grid.var("sp", "surface_air_pressure", "Pa", [](const Index& i) { return 95000.0 + 1000.0 * i.at("time"); },
+                         {"time", "lat", "lon"}));
+  test::write_nc(path("sfc.nc"), {{"time", 2}, {"lat", 3}, {"lon", 4}}, sfc);
+  InputDataset input({path("pl0.nc"), path("pl1.nc"), path("sfc.nc")}, no_aliases());
+  ColumnBlock block;
+  input.read_block(1, {0, 12}, block);
+  EXPECT_DOUBLE_EQ(block.surface_pressure_pa[5], 96000.0);
+  EXPECT_DOUBLE_EQ(block.temp_k[0], static_cast<float>(SmallGrid::temp_k(idx(0, 0, 0, 0))) + 1.0);
+}
+
 // ---- errors: InputError naming file, variable and expectation
 
 TEST_F(Reader, MissingHumidityListsWhatWasLookedFor) {
