@@ -8,6 +8,7 @@
 #include <cmath>
 #include <condition_variable>
 #include <deque>
+#include <exception>
 #include <future>
 #include <limits>
 #include <memory>
@@ -209,10 +210,7 @@ class Runner {
     }
     const double* pressure = grid_.pressure_pa.data();
     const bool with_ps = !block.surface_pressure_pa.empty();
-#ifdef LATENTLIFT_HAVE_OPENMP
-#pragma omp parallel for schedule(dynamic, 64)
-#endif
-    for (long i = 0; i < count; ++i) {
+    auto analyze_one = [&](long i) {
       ColumnAnalyzer& analyzer = *analyzers_[parallel::thread_index()];
       ColumnInput in;
       in.n_levels = nz;
@@ -241,7 +239,22 @@ class Runner {
           lev_byte[2][at] = lf.potential_instability[k];
         }
       }
+    };
+    std::exception_ptr failure;  // an exception must not leave an OpenMP region: keep the first one
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(dynamic, 64)
+#endif
+    for (long i = 0; i < count; ++i) {
+      try {
+        analyze_one(i);
+      } catch (...) {
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp critical(latentlift_pipeline_failure)
+#endif
+        if (!failure) failure = std::current_exception();
+      }
     }
+    if (failure) std::rethrow_exception(failure);
     for (long i = 0; i < count; ++i) fields.qc.add(results_[i].qc);  // integer sums: order-independent
   }
 
