@@ -150,7 +150,7 @@ def regional_state(x_km, y_km, hour):
     heating = 2.5 * np.sin(np.pi * np.clip(hour - 2.0, 0.0, 14.0) / 14.0) * land[..., None]
     t_warm = lapse_profile(295.5 + heating - 0.0015 * np.maximum(Y, -600.0), 6.6, 212.0, P)
     # a dry capping inversion over the open sea in the south, strengthening southward
-    cap = 8.0 * smooth_step((-500.0 - Y) / 150.0) * capping_layer(P, 880.0, 1.0)
+    cap = 6.0 * smooth_step((-500.0 - Y) / 150.0) * capping_layer(P, 955.0, 1.0)
     t_cool = lapse_profile(286.0, 5.2, 216.0, P)
     # polar air: surface inversion, then 4.8 K/km
     t_cold = lapse_profile(277.0, 4.8, 219.0, P) + surface_inversion(P, 1000.0, 3.0)
