@@ -4,6 +4,7 @@
 // reader hands to the kernel (unpacked in double precision, converted to SI by the
 // unit definitions of UDUNITS-2: degC = K - 273.15, g/kg = 1e-3 kg/kg, percent = 1e-2,
 // geopotential / standard gravity 9.80665 m s-2 (CGPM 1901) = geopotential height).
+#include <algorithm>
 #include <cmath>
 #include <map>
 #include <string>
@@ -144,6 +145,77 @@ TEST(AnalyzeShapes, BelowGroundLevelsMarkedBySurfacePressureAreNotSources) {
   }
   EXPECT_GT(plateau, 0);
   expect_matches_kernel(run);
+}
+
+struct LevelField {
+  const char* name;
+  double (*get)(const LevelFields&, int level);
+};
+
+const LevelField kLevelFields[] = {
+    {"wet_bulb_temperature", [](const LevelFields& l, int k) { return l.wet_bulb_temperature_k[k]; }},
+    {"wet_bulb_potential_temperature", [](const LevelFields& l, int k) { return l.wet_bulb_potential_temperature_k[k]; }},
+    {"saturation_theta_w", [](const LevelFields& l, int k) { return l.saturation_theta_w_k[k]; }},
+    {"max_parcel_excess", [](const LevelFields& l, int k) { return l.max_parcel_excess_k[k]; }},
+    {"latent_flag", [](const LevelFields& l, int k) { return l.latent_flag[k] < 0 ? std::nan("") : double(l.latent_flag[k]); }},
+    {"stability_class",
+     [](const LevelFields& l, int k) { return l.stability_class[k] < 0 ? std::nan("") : double(l.stability_class[k]); }},
+    {"potential_instability",
+     [](const LevelFields& l, int k) { return l.potential_instability[k] < 0 ? std::nan("") : double(l.potential_instability[k]); }},
+};
+
+// --level-fields on Pa-ascending input: every level field matches the kernel's at the level of the same pressure.
+TEST(AnalyzeShapes, LevelFieldsMatchKernelAtTheSamePressure) {
+  std::string dir = test_scratch();
+  make_shapes(dir, "pa_ascending");
+  std::string out_path = dir + "/out.nc";
+  CommandResult r = run_command(binary() + " analyze " + quote(dir + "/pa_ascending.nc") + " -o " + quote(out_path) +
+                                " --level-fields --quiet");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  ExpectedColumns expected = read_expected(dir + "/expected_pa_ascending.nc");
+  AnalysisSettings settings;
+  settings.level_fields = true;
+  ColumnAnalyzer analyzer(settings);
+  std::vector<ColumnResult> kernel(expected.n_columns);
+  for (int c = 0; c < expected.n_columns; ++c) analyzer.analyze(expected.column(c), kernel[c]);
+
+  NcFile out(out_path);
+  for (const LevelField& f : kLevelFields) {
+    ASSERT_TRUE(out.has_var(f.name)) << f.name;
+    Field field = read_field(out, f.name);
+    // the vertical dimension of the output, and its pressure coordinate in Pa
+    int vdim = -1;
+    for (size_t d = 0; d < field.dims.size(); ++d)
+      if (std::find(expected.index_dims.begin(), expected.index_dims.end(), field.dims[d]) == expected.index_dims.end()) vdim = int(d);
+    ASSERT_GE(vdim, 0) << f.name;
+    Field pressure = read_field(out, field.dims[vdim]);
+    std::string units = out.text_att(field.dims[vdim], "units");
+    double to_pa = (units == "Pa") ? 1.0 : 100.0;
+    ASSERT_EQ(int(pressure.size()), expected.n_levels);
+    int mismatches = 0;
+    for (int c = 0; c < expected.n_columns; ++c) {
+      for (size_t kout = 0; kout < pressure.size(); ++kout) {
+        int k = -1;
+        for (int kin = 0; kin < expected.n_levels; ++kin)
+          if (std::fabs(expected.pressure_pa[kin] - pressure.values[kout] * to_pa) < 0.5) k = kin;
+        ASSERT_GE(k, 0) << "output level " << pressure.values[kout] << " " << units << " is not an input level";
+        // position of (column c, output level kout) in the field
+        std::vector<size_t> idx;
+        for (size_t d = 0; d < field.dims.size(); ++d) {
+          if (int(d) == vdim) { idx.push_back(kout); continue; }
+          auto it = std::find(expected.index_dims.begin(), expected.index_dims.end(), field.dims[d]);
+          idx.push_back(it != expected.index_dims.end() ? expected.index[it - expected.index_dims.begin()][c] : 0);
+        }
+        double got = field.values[field.flat(idx)];
+        double want = f.get(kernel[c].levels, k);
+        bool ok = std::isnan(want) ? std::isnan(got) : std::fabs(got - want) <= 2e-5 * std::fabs(want) + 1e-3;
+        if (!ok && ++mismatches <= 3)
+          ADD_FAILURE() << f.name << " column " << c << " at " << expected.pressure_pa[k] << " Pa: output " << got
+                        << ", kernel " << want;
+      }
+    }
+    EXPECT_EQ(mismatches, 0) << f.name;
+  }
 }
 
 }  // namespace
