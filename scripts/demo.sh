@@ -9,7 +9,7 @@ build=${LATENTLIFT_BUILD:-"$here/build"}
 input="$here/sample_grids/vessaline_coast_lcc.nc"
 output="$here/out/demo_analysis.nc"
 
-"$here/scripts/setup.sh" "$build"
+"$here/scripts/setup.sh" "$build" latentlift   # the tool only; scripts/test.sh builds the tests
 tool="$build/latentlift"
 [ -x "$tool" ] || { echo "demo: $tool was not built" >&2; exit 1; }
 

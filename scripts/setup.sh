@@ -1,9 +1,12 @@
 #!/usr/bin/env bash
 # Install every dependency from Debian packages (when missing) and build latentlift.
-# Usage: scripts/setup.sh [build-dir]     (default: build)
+# Usage: scripts/setup.sh [build-dir [target...]]   (default: build, every target)
 set -euo pipefail
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${1:-"$here/build"}
+shift $(( $# > 0 ? 1 : 0 ))
+targets=()
+for t in "$@"; do targets+=(--target "$t"); done
 
 packages=(build-essential cmake pkg-config
   libnetcdf-dev libnetcdf-c++4-dev netcdf-bin
@@ -26,5 +29,5 @@ if [ ${#missing[@]} -gt 0 ]; then
 fi
 
 cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release >/dev/null
-cmake --build "$build" -j "$(nproc)"
-echo "setup: built $build/latentlift"
+cmake --build "$build" -j "$(nproc)" "${targets[@]}"
+echo "setup: built ${*:-everything} in $build"
