@@ -61,6 +61,8 @@ struct FieldSpec {
 const std::array<FieldSpec, kFieldCount>& field_specs();
 /// Bin of value v under the rule of FieldSpec (v must not be NaN).
 int bin_of(const std::vector<double>& edges, double v);
+/// bin_of(field_specs()[f].edges, v), by a table look-up instead of a binary search.
+int field_bin(int f, double v);
 /// Percentile q (0-100] from a histogram: the smallest bin whose cumulative count reaches
 /// r = q/100 * n is interpolated linearly (uniform within the bin, grouped-data rule);
 /// the point-mass bin gives e_0, the overflow bin spans (e_K, max]; the result is capped at max.
@@ -103,12 +105,12 @@ class Accumulator {
   int levels() const { return levels_; }
   /// Index of (group, point) in the per-point arrays.
   std::size_t at(int group, std::size_t point) const { return group * points_ + point; }
-  /// Index into hist[f] of (group, bin, point): layout (group, bin, point), as in the file.
+  /// Index into hist[f] of (group, point, bin): the bins of one point are contiguous.
   std::size_t hist_at(int f, int group, int bin, std::size_t point) const {
-    return (static_cast<std::size_t>(group) * field_specs()[f].bin_count() + bin) * points_ + point;
+    return at(group, point) * field_specs()[f].bin_count() + bin;
   }
-  /// Percentile q of field f at every (group, point), indexed by at(); the rule of
-  /// histogram_percentile, computed in sweeps over the bins; NaN where n = 0.
+  /// Percentile q of field f at every (group, point), indexed by at(), by histogram_percentile;
+  /// NaN where n = 0.
   std::vector<double> percentile(int f, double q) const;
   /// Index into stability_count of (group, level, class, point).
   std::size_t stability_at(int group, int level, int cls, std::size_t point) const {
@@ -126,6 +128,9 @@ class Accumulator {
   std::array<std::vector<std::uint32_t>, kFieldCount> n;  // time steps with the field defined
   std::array<std::vector<double>, kFieldCount> mean, m2, max;  // max = -inf when n = 0
   std::array<std::vector<std::uint32_t>, kFieldCount> hist;    // [hist_at(f, g, bin, p)]
+  /// Copy hist[f] of one group to/from the file layout [bin * points + point] (blocked transposition).
+  void histogram_to_file_layout(int f, int group, std::uint32_t* out) const;
+  void histogram_from_file_layout(int f, int group, const std::uint32_t* in);
   std::vector<std::uint32_t> stability_count;  // [stability_at(g, level, class, p)]
 
  private:

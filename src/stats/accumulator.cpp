@@ -53,6 +53,50 @@ int bin_of(const std::vector<double>& edges, double v) {
   return static_cast<int>(std::lower_bound(edges.begin(), edges.end(), v) - edges.begin());
 }
 
+namespace {
+
+// Every edge of a field is a multiple of its smallest step u, so the interval ((j-1)u, ju]
+// lies inside one bin: table[j] is that bin. ceil(v/u) picks j; two comparisons correct
+// any rounding, so the result equals bin_of exactly.
+struct BinTable {
+  double inverse_unit = 1.0;
+  std::vector<int> table;
+};
+
+const std::array<BinTable, kFieldCount>& bin_tables() {
+  static const std::array<BinTable, kFieldCount> tables = [] {
+    std::array<BinTable, kFieldCount> t;
+    for (int f = 0; f < kFieldCount; ++f) {
+      const auto& edges = field_specs()[f].edges;
+      double unit = edges[1] - edges[0];
+      for (std::size_t k = 1; k < edges.size(); ++k) unit = std::min(unit, edges[k] - edges[k - 1]);
+      const std::size_t n = static_cast<std::size_t>(std::lround(edges.back() / unit)) + 2;
+      t[f].inverse_unit = 1.0 / unit;
+      t[f].table.resize(n);
+      for (std::size_t j = 0; j < n; ++j) t[f].table[j] = bin_of(edges, static_cast<double>(j) * unit);
+    }
+    return t;
+  }();
+  return tables;
+}
+
+}  // namespace
+
+int field_bin(int f, double v) {
+  const auto& edges = field_specs()[f].edges;
+  if (v <= edges.front()) return 0;
+  const int last = static_cast<int>(edges.size());  // the overflow bin
+  if (v > edges.back()) return last;
+  const BinTable& t = bin_tables()[f];
+  const double q = v * t.inverse_unit;
+  std::size_t j = static_cast<std::size_t>(q);
+  if (static_cast<double>(j) < q) ++j;
+  int k = t.table[std::min(j, t.table.size() - 1)];
+  while (k < last && v > edges[k]) ++k;
+  while (k > 1 && v <= edges[k - 1]) --k;
+  return k;
+}
+
 double histogram_percentile(const std::uint32_t* counts, const std::vector<double>& edges,
                             double max_value, double q) {
   const int bins = static_cast<int>(edges.size()) + 1;
@@ -98,7 +142,6 @@ Accumulator::Accumulator(GroupBy group_by, std::size_t n_points, int n_levels)
 
 void Accumulator::add(const TimeStepFields& step) {
   const int g = group_index(group_by_, step.valid_time_s);
-  const auto& specs = field_specs();
   const long np = static_cast<long>(points_);
   if (levels_ > 0 && !step.stability_class)
     throw Error("climatology: a time step without stability classes was added to an accumulator with levels");
@@ -122,7 +165,7 @@ void Accumulator::add(const TimeStepFields& step) {
       mean[f][i] += delta / nn;
       m2[f][i] += delta * (v - mean[f][i]);
       if (v > max[f][i]) max[f][i] = v;
-      ++hist[f][hist_at(f, g, bin_of(specs[f].edges, v), static_cast<std::size_t>(p))];
+      ++hist[f][hist_at(f, g, field_bin(f, v), static_cast<std::size_t>(p))];
     }
     for (int level = 0; level < levels_; ++level) {
       const std::int8_t s = step.stability_class[static_cast<std::size_t>(level) * points_ + p];
@@ -183,55 +226,43 @@ void Accumulator::merge_stability(const std::uint32_t* stability_b) {
 }
 
 std::vector<double> Accumulator::percentile(int f, double q) const {
-  // Same arithmetic as histogram_percentile, bin by bin over blocks of points (OpenMP over blocks).
   const auto& edges = field_specs()[f].edges;
-  const int bins = field_specs()[f].bin_count();
-  std::vector<double> result(count.size(), std::numeric_limits<double>::quiet_NaN());
-  constexpr long kBlock = 512;
-  const long blocks = static_cast<long>((points_ + kBlock - 1) / kBlock);
-  for (int g = 0; g < groups_; ++g) {
+  const std::size_t bins = field_specs()[f].bin_count();
+  std::vector<double> result(count.size());
+  const long cells = static_cast<long>(count.size());
 #ifdef LATENTLIFT_HAVE_OPENMP
 #pragma omp parallel for schedule(static)
 #endif
-    for (long blk = 0; blk < blocks; ++blk) {
-      const std::size_t p0 = static_cast<std::size_t>(blk) * kBlock;
-      const std::size_t p1 = std::min(points_, p0 + kBlock);
-      std::uint64_t below[kBlock];
-      double rank[kBlock];
-      bool done[kBlock];
-      std::size_t open = 0;
-      for (std::size_t p = p0; p < p1; ++p) {
-        const std::uint32_t total = n[f][at(g, p)];
-        below[p - p0] = 0;
-        done[p - p0] = total == 0;
-        rank[p - p0] = q / 100.0 * static_cast<double>(total);
-        if (total) ++open;
-      }
-      for (int k = 0; k < bins && open > 0; ++k) {
-        const std::uint32_t* hk = hist[f].data() + hist_at(f, g, k, 0);
-        for (std::size_t p = p0; p < p1; ++p) {
-          const std::size_t j = p - p0;
-          if (done[j] || hk[p] == 0) continue;
-          const std::uint64_t cum = below[j] + hk[p];
-          if (static_cast<double>(cum) >= rank[j]) {
-            const std::size_t i = at(g, p);
-            const double mx = max[f][i];
-            if (k == 0) {
-              result[i] = std::min(edges.front(), mx);
-            } else {
-              const double lo = edges[k - 1];
-              const double hi = k < bins - 1 ? edges[k] : mx;
-              result[i] = std::min(lo + (rank[j] - static_cast<double>(below[j])) / hk[p] * (hi - lo), mx);
-            }
-            done[j] = true;
-            --open;
-          }
-          below[j] = cum;
-        }
-      }
-    }
+  for (long c = 0; c < cells; ++c) {
+    const std::size_t i = static_cast<std::size_t>(c);
+    result[i] = n[f][i] == 0 ? std::numeric_limits<double>::quiet_NaN()
+                             : histogram_percentile(hist[f].data() + i * bins, edges, max[f][i], q);
   }
   return result;
+}
+
+namespace {
+constexpr std::size_t kTile = 64;  // points per tile of the transposition
+}
+
+void Accumulator::histogram_to_file_layout(int f, int group, std::uint32_t* out) const {
+  const std::size_t bins = field_specs()[f].bin_count();
+  const std::uint32_t* in = hist[f].data() + at(group, 0) * bins;
+  for (std::size_t p0 = 0; p0 < points_; p0 += kTile) {
+    const std::size_t p1 = std::min(points_, p0 + kTile);
+    for (std::size_t b = 0; b < bins; ++b)
+      for (std::size_t p = p0; p < p1; ++p) out[b * points_ + p] = in[p * bins + b];
+  }
+}
+
+void Accumulator::histogram_from_file_layout(int f, int group, const std::uint32_t* in) {
+  const std::size_t bins = field_specs()[f].bin_count();
+  std::uint32_t* out = hist[f].data() + at(group, 0) * bins;
+  for (std::size_t p0 = 0; p0 < points_; p0 += kTile) {
+    const std::size_t p1 = std::min(points_, p0 + kTile);
+    for (std::size_t b = 0; b < bins; ++b)
+      for (std::size_t p = p0; p < p1; ++p) out[p * bins + b] = in[b * points_ + p];
+  }
 }
 
 namespace {

@@ -792,11 +792,18 @@ Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata&
       if (bounds[2 * k + 1] != spec.edges[k])
         throw InputError(path, name + "_bin_bounds", "the histogram bins of this latentlift version (edge " +
                                                          std::to_string(spec.edges[k]) + ")");
-    std::vector<unsigned int> buf(acc.hist[f].size());
     const int hv = find_var(id, name + "_histogram");
     if (hv < 0) throw InputError(path, name + "_histogram", "climatology state variable (missing)");
-    check(nc_get_var_uint(id, hv, buf.data()), path, "reading " + name + "_histogram");
-    std::copy(buf.begin(), buf.end(), acc.hist[f].begin());  // same layout (group, bin, grid...)
+    VarDims hd = var_dims(id, hv);
+    std::vector<size_t> start(hd.lengths.size(), 0), count(hd.lengths);
+    count[0] = 1;
+    std::vector<std::uint32_t> buf(bins * meta.grid.points);
+    for (int g = 0; g < acc.groups(); ++g) {  // file (group, bin, grid...), memory (group, point, bin)
+      start[0] = g;
+      check(nc_get_vara_uint(id, hv, start.data(), count.data(), reinterpret_cast<unsigned int*>(buf.data())), path,
+            "reading " + name + "_histogram");
+      acc.histogram_from_file_layout(f, g, buf.data());
+    }
   }
   if (meta.grid.levels > 0) read_u32("stability_class_count", acc.stability_count);
   return acc;
@@ -916,6 +923,19 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     return v;
   };
 
+  // Chunks of one group (written group by group), whole inner dimensions, rows of the grid up to ~4 MiB.
+  auto chunk_by_group = [&](int v, std::vector<size_t> inner) {
+    size_t inner_size = 4;
+    for (size_t l : inner) inner_size *= l;
+    size_t row = inner_size;
+    for (size_t i = 1; i < grid.sizes.size(); ++i) row *= grid.sizes[i];
+    const size_t rows = std::max<size_t>(1, std::min(grid.sizes[0], (size_t(4) << 20) / std::max<size_t>(row, 1)));
+    std::vector<size_t> chunks{1};
+    chunks.insert(chunks.end(), inner.begin(), inner.end());
+    chunks.push_back(rows);
+    for (size_t i = 1; i < grid.sizes.size(); ++i) chunks.push_back(grid.sizes[i]);
+    check(nc_def_var_chunking(nc, v, NC_CHUNKED, chunks.data()), tmp, "chunking");
+  };
   const int v_count = def_count("count", "number of valid time steps (column analysed)", gdims);
   const int v_lc = def_count("latent_count", "number of time steps with the most-unstable parcel latently unstable", gdims);
   const int v_rlc = def_count("real_latent_count", "number of time steps with real-latent instability", gdims);
@@ -969,6 +989,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     std::vector<int> hd{dim_group, dim_bin};
     hd.insert(hd.end(), hdims.begin(), hdims.end());
     x.hist = def_count(n + "_histogram", "histogram of " + n + " over the time steps of the group", hd);
+    chunk_by_group(x.hist, {static_cast<size_t>(s.bin_count())});
   }
   int v_sc = -1, v_scc = -1;
   if (grid.levels > 0) {
@@ -981,6 +1002,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     std::vector<int> sd{dim_group, dim_level, dim_class};
     sd.insert(sd.end(), hdims.begin(), hdims.end());
     v_scc = def_count("stability_class_count", "number of time steps with the layer in each stability class", sd);
+    chunk_by_group(v_scc, {grid.levels, static_cast<size_t>(kStabilityClassCount)});
   }
 
   // global attributes
@@ -1088,7 +1110,18 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     }
     check(nc_put_var_double(nc, x.bin, lower.data()), tmp, "writing " + n + "_bin");
     check(nc_put_var_double(nc, x.bin_bounds, bb.data()), tmp, "writing " + n + "_bin_bounds");
-    put_u32(x.hist, acc.hist[f], n + "_histogram");  // same layout (group, bin, grid...)
+    {
+      std::vector<size_t> start(2 + hdims.size(), 0), count(2 + hdims.size(), 1);
+      count[1] = bins;
+      for (size_t i = 0; i < grid.sizes.size(); ++i) count[2 + i] = grid.sizes[i];
+      std::vector<std::uint32_t> buf(static_cast<size_t>(bins) * grid.points);
+      for (int g = 0; g < groups; ++g) {  // memory (group, point, bin), file (group, bin, grid...)
+        acc.histogram_to_file_layout(f, g, buf.data());
+        start[0] = g;
+        check(nc_put_vara_uint(nc, x.hist, start.data(), count.data(), reinterpret_cast<const unsigned int*>(buf.data())),
+              tmp, "writing " + n + "_histogram");
+      }
+    }
   }
   if (grid.levels > 0) {
     const signed char classes[] = {0, 1, 2, 3, 4};

@@ -279,3 +279,15 @@ TEST(Histogram, PercentilesOfAllPointsEqualTheOnePointRule) {
       }
   }
 }
+
+TEST(Histogram, TableLookUpEqualsTheBinarySearchEverywhere) {
+  for (int f = 0; f < cl::kFieldCount; ++f) {
+    const auto& edges = cl::field_specs()[f].edges;
+    std::vector<double> values{-1.0, 0.0, 1e-300, 1e9};
+    for (double e : edges)
+      for (double v : {e, std::nextafter(e, -1e300), std::nextafter(e, 1e300), e + 0.5, e + 1e-9})
+        values.push_back(v);
+    for (int i = 0; i < 100000; ++i) values.push_back(i * 0.0937 * (f + 1));
+    for (double v : values) ASSERT_EQ(cl::field_bin(f, v), cl::bin_of(edges, v)) << cl::field_specs()[f].name << " " << v;
+  }
+}
