@@ -117,7 +117,11 @@ class Accumulator {
     return ((static_cast<std::size_t>(group) * levels_ + level) * kStabilityClassCount + cls) * points_ + point;
   }
 
-  /// Flat byte image (for MPI transfer) and back; throws Error on a malformed image.
+  /// Copy hist[f] of one group to/from the file layout [bin * points + point] (blocked transposition).
+  void histogram_to_file_layout(int f, int group, std::uint32_t* out) const;
+  void histogram_from_file_layout(int f, int group, const std::uint32_t* in);
+
+  /// Flat byte image of the whole state and back; throws Error on a malformed image.
   std::vector<char> serialize() const;
   static Accumulator deserialize(const std::vector<char>& bytes);
 
@@ -128,9 +132,6 @@ class Accumulator {
   std::array<std::vector<std::uint32_t>, kFieldCount> n;  // time steps with the field defined
   std::array<std::vector<double>, kFieldCount> mean, m2, max;  // max = -inf when n = 0
   std::array<std::vector<std::uint32_t>, kFieldCount> hist;    // [hist_at(f, g, bin, p)]
-  /// Copy hist[f] of one group to/from the file layout [bin * points + point] (blocked transposition).
-  void histogram_to_file_layout(int f, int group, std::uint32_t* out) const;
-  void histogram_from_file_layout(int f, int group, const std::uint32_t* in);
   std::vector<std::uint32_t> stability_count;  // [stability_at(g, level, class, p)]
 
  private:
