@@ -150,6 +150,16 @@ TEST(ClimatologyCommand, UpdateRefusesAnotherGrouping) {
   EXPECT_NE(r.output.find("groups by month"), std::string::npos) << r.output;
 }
 
+TEST(ClimatologyCommand, UpdateRefusesAnotherGrid) {
+  const std::string dir = t::scratch_dir("clim_grid_mismatch");
+  generate(dir, "--files 1");
+  t::run_command(script("make_analysis_outputs.py") + " " + dir + "/wide --files 1 --nx 9 --start 2004-01-01");
+  ASSERT_EQ(climatology(dir + "/in/analysis_00.nc -o " + dir + "/stats.nc").exit_code, 0);
+  auto r = climatology(dir + "/wide/analysis_00.nc -o " + dir + "/stats.nc --update");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.output.find("x=7"), std::string::npos) << r.output;  // names the expected grid
+}
+
 TEST(ClimatologyCommand, InputsAnalysedWithOtherSettingsAreRefused) {
   const std::string dir = t::scratch_dir("clim_settings");
   generate(dir, "--files 1");
