@@ -85,7 +85,7 @@ Source scan_model_input(const std::string& path, const RunConfig& config) {
 
 std::string describe_grid(const Grid& g) {
   std::string out;
-  for (std::size_t i = 0; i < g.dims.size(); ++i) out += (i ? " x " : "") + g.dims[i] + "=" + std::to_string(g.sizes[i]);
+  for (std::size_t i = 0; i < g.dims.size(); ++i) out += (i ? ", " : "") + g.dims[i] + "=" + std::to_string(g.sizes[i]);
   return out;
 }
 
