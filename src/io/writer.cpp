@@ -295,6 +295,15 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   std::string coordinates;
   for (const std::string& coord : src.aux_coordinates)
     if (d::find_var(out, coord) >= 0) coordinates += (coordinates.empty() ? "" : " ") + coord;
+  // A projected grid without 2-D latitude/longitude gets them, computed by the gis module (PROJ).
+  gis::LatLonVariableIds added_latlon;
+  const bool add_latlon = grid.kind == HorizontalKind::projected && coordinates.empty() && !grid.grid_mapping.empty() &&
+                          !src.horizontal_coordinates[0].empty() && !src.horizontal_coordinates[1].empty() &&
+                          d::find_var(out, "lat") < 0 && d::find_var(out, "lon") < 0;
+  if (add_latlon) {
+    added_latlon = gis::define_latlon_variables(out, grid.horizontal[0].name, grid.horizontal[1].name, path);
+    coordinates = "lat lon";
+  }
 
   // Output fields: float (NaN written as _FillValue) and byte with flag_values.
   // Maps larger than a block of whole rows are chunked in bands of block rows, so that each
@@ -391,6 +400,9 @@ void OutputWriter::Impl::define(const InputDataset& in) {
     d::check(nc_get_var(grid_file.id(), c.in_var, buffer.data()), grid_file.path(), "reading " + c.name);
     d::check(nc_put_var(out, c.out_var, buffer.data()), path, "writing " + c.name);
   }
+  if (add_latlon)
+    gis::write_latlon_variables(grid_file.id(), src.horizontal_coordinates[1], src.horizontal_coordinates[0],
+                                grid.grid_mapping, out, added_latlon, grid_file.path());
   if (time_var >= 0) {
     std::vector<double> times;
     for (std::size_t t : time_indices) times.push_back(grid.time_values.at(t));

@@ -184,6 +184,36 @@ TEST_F(Writer, GivesLatLonInputWithoutGridMappingTheWgs84GridMapping) {
   nc_close(ncid);
 }
 
+TEST_F(Writer, AddsLatLonToAProjectedGridWithoutThem) {
+  test::Dims dims = {{"plev", 3}, {"y", 2}, {"x", 3}};
+  std::vector<test::Var> vars = {
+      {"plev", NC_DOUBLE, {"plev"}, {{"units", "hPa"}}, {1000, 850, 700}},
+      {"x", NC_DOUBLE, {"x"}, {{"units", "m"}, {"standard_name", "projection_x_coordinate"}}, {0, 50000, 100000}},
+      {"y", NC_DOUBLE, {"y"}, {{"units", "m"}, {"standard_name", "projection_y_coordinate"}}, {100000, 200000}},
+      {"lcc", NC_INT, {}, {{"grid_mapping_name", "lambert_conformal_conic"}, {"standard_parallel", "", {35.0, 47.0}, NC_DOUBLE},
+                           {"longitude_of_central_meridian", "", {10.0}, NC_DOUBLE}, {"latitude_of_projection_origin", "", {40.0}, NC_DOUBLE},
+                           {"earth_radius", "", {6371229.0}, NC_DOUBLE}}, {}},
+      {"t", NC_FLOAT, {"plev", "y", "x"}, {{"units", "K"}, {"standard_name", "air_temperature"}, {"grid_mapping", "lcc"}}, std::vector<double>(18, 280.0)},
+      {"q", NC_FLOAT, {"plev", "y", "x"}, {{"units", "1"}, {"standard_name", "specific_humidity"}, {"grid_mapping", "lcc"}}, std::vector<double>(18, 0.004)},
+      {"z", NC_FLOAT, {"plev", "y", "x"}, {{"units", "m"}, {"standard_name", "geopotential_height"}, {"grid_mapping", "lcc"}}, std::vector<double>(18, 1000.0)},
+  };
+  test::write_nc(input_path, dims, vars);
+  InputDataset input({input_path}, {});
+  OutputWriter(output_path, input, {}).commit({});
+  int ncid = -1, lat = -1, cape = -1, mapping = -1;
+  ASSERT_EQ(nc_open(output_path.c_str(), NC_NOWRITE, &ncid), NC_NOERR);
+  ASSERT_EQ(nc_inq_varid(ncid, "lat", &lat), NC_NOERR);
+  double lats[6];
+  nc_get_var_double(ncid, lat, lats);
+  // x = 100 km, y = 200 km by PROJ's cs2cs (+proj=lcc +lat_1=35 +lat_2=47 +lat_0=40 +lon_0=10 +R=6371229): 41.802120 N
+  EXPECT_NEAR(lats[5], 41.802120, 1e-5);
+  nc_inq_varid(ncid, "mu_cape", &cape);
+  EXPECT_EQ(text_att(ncid, cape, "coordinates"), "lat lon");
+  nc_inq_varid(ncid, "lcc", &mapping);
+  EXPECT_NE(text_att(ncid, mapping, "crs_wkt"), "<absent>");  // completed by the gis module
+  nc_close(ncid);
+}
+
 TEST_F(Writer, CarriesOtherOuterDimensionsLikeTime) {
   test::Dims dims = {{"time", 2}, {"member", 3}, {"level", 4}, {"lat", 3}, {"lon", 4}};
   std::vector<std::string> order = {"time", "member", "level", "lat", "lon"};
