@@ -173,7 +173,7 @@ class RowCache {
 struct Parcel {
   int level = -1;         // position in levels_
   double theta_w = kNaN;
-  double lcl_t = kNaN, lcl_p = kNaN, lcl_lnp = kNaN;
+  double lcl_t = kNaN, lcl_lnp = kNaN;
   int lcl_seg = -1;       // layer holding the LCL (-1: LCL above the analysis top)
   double lcl_s = 0;       // fraction of that layer
   bool flagged = false;
@@ -211,6 +211,7 @@ void ColumnResult::set_missing(int n_levels, bool with_levels) {
 struct ColumnAnalyzer::Impl {
   AnalysisSettings settings;
   const Table& table = Table::instance();
+  const double kLnTableTop = std::log(Table::kPressureMinPa);
   bool virtual_mode;
 
   RowCache row_cache;
@@ -291,10 +292,9 @@ struct ColumnAnalyzer::Impl {
     const double td = thermo::dew_point_k(lv.e);
     pc.lcl_t = std::min(thermo::lcl_temperature_k(lv.t, td), lv.t);
     pc.lcl_lnp = std::min(lv.lnp + std::log(pc.lcl_t / lv.t) / thermo::poisson_kappa(lv.r), lv.lnp);
-    pc.lcl_p = std::exp(pc.lcl_lnp);
-    // An LCL above the tables (10 hPa) belongs to stratospheric air whose theta_w lies far
-    // beyond the tabulated pseudo-adiabats: missing.
-    pc.theta_w = pc.lcl_p >= Table::kPressureMinPa ? table.theta_w_k(pc.lcl_t, pc.lcl_lnp) : kNaN;
+    // An LCL above the tables (10 hPa), or a theta_w beyond them, belongs to stratospheric
+    // air far from any tabulated pseudo-adiabat: missing.
+    pc.theta_w = pc.lcl_lnp >= kLnTableTop ? in_table_range(table.theta_w_k(pc.lcl_t, pc.lcl_lnp)) : kNaN;
     // The layer of the analysis column that holds the LCL.
     pc.lcl_seg = -1;
     if (k < n_an && pc.lcl_lnp >= levels[n_an - 1].lnp) {
@@ -437,7 +437,7 @@ struct ColumnAnalyzer::Impl {
     ParcelAscent out{};
     out.source_pressure_pa = levels[pc.level].p;
     out.theta_w_k = pc.theta_w;
-    out.lcl_pressure_pa = pc.lcl_p;
+    out.lcl_pressure_pa = std::exp(pc.lcl_lnp);
     out.lcl_temp_k = pc.lcl_t;
     out.lfc_pressure_pa = out.el_pressure_pa = out.cin_j_kg = kNaN;
     out.cape_j_kg = 0.0;
@@ -486,13 +486,19 @@ struct ColumnAnalyzer::Impl {
         });
     }
     const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
+    const double top = settings.top_pressure_pa;
     for (int i : order) {
+      // Levels above the analysis top enter only the level fields; without them one is
+      // enough (to interpolate the top). Quality control counts levels up to the top.
+      if (!settings.level_fields && !levels.empty() && levels.back().p < top) break;
       const double pi = p[i], ti = in.temp_k[i], hi = in.humidity[i];
       if (!(pi > 0) || !std::isfinite(pi) || !std::isfinite(ti) || !std::isfinite(hi)) continue;  // missing
       if (has_surface && pi > in.surface_pressure_pa) continue;  // below ground
       if (pi < Table::kPressureMinPa || pi > Table::kPressureMaxPa) continue;
+      QcCounts scratch_qc;
+      QcCounts& level_qc = pi >= top ? qc : scratch_qc;  // counted only up to the analysis top
       if (ti < kMinValidTempK || ti > kMaxValidTempK) {
-        ++qc.temperature_rejected;
+        ++level_qc.temperature_rejected;
         continue;
       }
       if (!levels.empty() && pi >= levels.back().p) continue;  // duplicate pressure
@@ -506,21 +512,22 @@ struct ColumnAnalyzer::Impl {
           e = hi > 0 ? thermo::vapour_pressure_from_mixing_ratio_pa(hi, pi) : 0.0;
           break;
         case HumidityKind::relative_humidity:
-          if (hi > 1.0) ++qc.humidity_clipped;
+          if (hi > 1.0) ++level_qc.humidity_clipped;
           e = std::min(hi, 1.0) * es;
           if (hi > 1.0) e = es;
           break;
         case HumidityKind::dew_point:
-          if (hi > ti) ++qc.dew_point_corrected;
-          e = thermo::saturation_vapour_pressure_pa(std::min(hi, ti));
+          if (hi > ti) ++level_qc.dew_point_corrected;
+          // Below 150 K Bolton's formula leaves its range (pole at 29.65 K): the floor below applies.
+          e = hi >= kMinValidTempK ? thermo::saturation_vapour_pressure_pa(std::min(hi, ti)) : 0.0;
           break;
       }
       if (in.humidity_kind == HumidityKind::specific_humidity || in.humidity_kind == HumidityKind::mixing_ratio) {
-        if (e > es * (1.0 + 1e-9)) ++qc.humidity_clipped;  // exactly saturated input is not clipping
+        if (e > es * (1.0 + 1e-9)) ++level_qc.humidity_clipped;  // exactly saturated input is not clipping
         e = std::min(e, es);
       }
       if (e < kMinRelativeHumidity * es) {  // zero or negative humidity
-        ++qc.humidity_clipped;
+        ++level_qc.humidity_clipped;
         e = kMinRelativeHumidity * es;
       }
       Level lv;
@@ -638,7 +645,7 @@ struct ColumnAnalyzer::Impl {
     // Most-unstable parcel: largest theta_w in the source layer, lowest on ties.
     int mu = -1;
     for (int k = 0; k < n_source; ++k)
-      if (mu < 0 || parcels[k].theta_w > parcels[mu].theta_w) mu = k;
+      if (!std::isnan(parcels[k].theta_w) && (mu < 0 || parcels[k].theta_w > parcels[mu].theta_w)) mu = k;
     if (mu >= 0) {
       Parcel& pc = parcels[mu];
       res.mu_pressure_pa = levels[mu].p;
@@ -680,7 +687,8 @@ struct ColumnAnalyzer::Impl {
       while (top + 1 < n_source && parcels[top + 1].flagged) ++top;
       const double lnp_bottom = (k == 0) ? levels[0].lnp : boundary_lnp(k, k - 1);
       const double lnp_top = (top + 1 < n_source) ? boundary_lnp(top, top + 1) : levels[top].lnp;
-      const double p_bottom = std::exp(lnp_bottom), p_top = std::exp(lnp_top);
+      const double p_bottom = lnp_bottom == levels[k].lnp ? levels[k].p : std::exp(lnp_bottom);
+      const double p_top = lnp_top == levels[top].lnp ? levels[top].p : std::exp(lnp_top);
       if (std::isnan(res.latent_layer_bottom_pa)) {
         res.latent_layer_bottom_pa = p_bottom;
         res.latent_layer_top_pa = p_top;
@@ -718,7 +726,7 @@ struct ColumnAnalyzer::Impl {
       lf.wet_bulb_potential_temperature_k[i] = in_table_range(pc.theta_w);
       const double tw = k < n_an && lv.row ? table.curve(pc.theta_w).temperature_k(*lv.row)
                                            : table.temperature_k(pc.theta_w, lv.lnp);
-      lf.wet_bulb_temperature_k[i] = std::min(lv.t, tw);
+      lf.wet_bulb_temperature_k[i] = std::isnan(tw) ? kNaN : std::min(lv.t, tw);
       lf.saturation_theta_w_k[i] = in_table_range(k < n_an ? lv.theta_w_star : table.theta_w_k(lv.t, lv.lnp));
       lf.max_parcel_excess_k[i] = pc.excess;
       lf.latent_flag[i] = pc.flagged ? 1 : 0;

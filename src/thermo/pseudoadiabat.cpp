@@ -77,8 +77,11 @@ inline void cubic_derivative_weights(double t, double d[4]) {
 // First stencil node and fraction for coordinate x on a grid of n nodes.
 inline int stencil(double x, double x0, double dx, int n, double& t) {
   const double u = (x - x0) / dx;
-  int i = static_cast<int>(u);  // floor without a library call (u may be negative)
-  if (u < i) --i;
+  // Floor without a library call; NaN and far-off coordinates are kept in range for the
+  // cast (the fraction t stays NaN, so a NaN input gives a NaN result).
+  const double uc = u >= 0.0 ? std::min(u, static_cast<double>(n)) : (u < 0.0 ? -1.0 : 0.0);
+  int i = static_cast<int>(uc);
+  if (uc < i) --i;
   i = std::clamp(i - 1, 0, n - 4);
   t = u - (i + 1);
   return i;
