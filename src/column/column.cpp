@@ -359,13 +359,20 @@ struct ColumnAnalyzer::Impl {
                             : buoyancy(k, xb);
       const Quadratic q = Quadratic::through(ba, bm, bb);
       const double width = xa - xb;
+      const double q_max = q.max_on(0.0, 1.0);
+      // A piece of one sign integrates by Simpson's rule, exact for the parabola.
+      const double simpson = (ba + 4.0 * bm + bb) / 6.0;
+      const bool all_positive = q_max > 0 && q.min_on(0.0, 1.0) >= 0;
+      const bool all_negative = q_max <= 0;
       if (xa <= pc.lcl_lnp + 1e-12) {
-        out.max_excess = std::max(out.max_excess, q.max_on(0.0, 1.0));
-        if (integrals) out.positive_area += width * q.signed_area(0.0, 1.0, true);
+        out.max_excess = std::max(out.max_excess, q_max);
+        if (integrals && !all_negative)
+          out.positive_area += width * (all_positive ? simpson : q.signed_area(0.0, 1.0, true));
       }
-      if (integrals && xa > pc.lfc_lnp) {
-        const double u_end = xb >= pc.lfc_lnp ? 1.0 : (xa - pc.lfc_lnp) / width;
-        out.negative_area += width * q.signed_area(0.0, u_end, false);
+      if (integrals && xa > pc.lfc_lnp && !all_positive) {
+        const bool whole = xb >= pc.lfc_lnp;
+        out.negative_area += width * (whole && all_negative ? -simpson
+                                                            : q.signed_area(0.0, whole ? 1.0 : (xa - pc.lfc_lnp) / width, false));
       }
       ba = bb;
     };
