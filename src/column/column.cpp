@@ -215,11 +215,14 @@ struct ColumnAnalyzer::Impl {
   bool virtual_mode;
 
   RowCache row_cache;
+  std::vector<double> cut_lnp;                  // analysis levels of the previous column
+  std::vector<const Table::Row*> level_rows, mid_rows;
   std::vector<Level> levels;       // usable levels, bottom up; [0, n_an) form the analysis column
   int n_an = 0;                    // analysis levels (p >= top, plus an interpolated top level)
   std::vector<Segment> segs;       // n_an - 1 layers
   std::vector<double> suffix_eps;  // min of sat_eps over layers k.. top
   std::vector<Parcel> parcels;     // one per level (filled lazily: source layer, or all with level fields)
+  std::vector<double> input_p, input_lnp;  // the last pressure array seen, and its ln p
   std::vector<int> order;          // input indices, bottom up
   std::vector<int> rank_of_input;  // input index -> position in order
   std::vector<int> position_of_input;  // input index -> position in levels (-1 unusable)
@@ -474,13 +477,19 @@ struct ColumnAnalyzer::Impl {
   bool load(const ColumnInput& in, QcCounts& qc) {
     n_input = in.n_levels;
     levels.clear();
-    position_of_input.assign(static_cast<size_t>(std::max(0, n_input)), -1);
-    order.resize(static_cast<size_t>(std::max(0, n_input)));
-    std::iota(order.begin(), order.end(), 0);
+    const std::size_t n = static_cast<std::size_t>(std::max(0, n_input));
+    position_of_input.assign(n, -1);
     const double* p = in.pressure_pa;
-    if (n_input > 1) {
+    // A grid's columns share their pressure levels: the vertical order and ln p are
+    // worked out once for a pressure array and reused while it repeats.
+    if (n != input_p.size() || (n > 0 && std::memcmp(p, input_p.data(), n * sizeof(double)) != 0)) {
+      input_p.assign(p, p + n);
+      input_lnp.resize(n);
+      for (std::size_t i = 0; i < n; ++i) input_lnp[i] = p[i] > 0 ? std::log(p[i]) : kNaN;
+      order.resize(n);
+      std::iota(order.begin(), order.end(), 0);
       bool down = true, up = true;
-      for (int i = 1; i < n_input; ++i) {
+      for (std::size_t i = 1; i < n; ++i) {
         if (!(p[i] < p[i - 1])) down = false;
         if (!(p[i] > p[i - 1])) up = false;
       }
@@ -540,7 +549,7 @@ struct ColumnAnalyzer::Impl {
       Level lv;
       lv.index = i;
       lv.p = pi;
-      lv.lnp = std::log(pi);
+      lv.lnp = input_lnp[static_cast<std::size_t>(i)];
       lv.t = ti;
       lv.e = e;
       lv.r = thermo::mixing_ratio(e, pi);
@@ -574,10 +583,25 @@ struct ColumnAnalyzer::Impl {
     }
     for (size_t k = 0; k < levels.size(); ++k)
       if (levels[k].index >= 0) position_of_input[static_cast<size_t>(levels[k].index)] = static_cast<int>(k);
+    // Table cuts at the analysis levels and layer midpoints, looked up again only when the
+    // column's levels differ from the previous column's.
+    const std::size_t n_cut = static_cast<std::size_t>(n_an);
+    bool same_levels = n_cut == cut_lnp.size();
+    for (std::size_t k = 0; same_levels && k < n_cut; ++k) same_levels = cut_lnp[k] == levels[k].lnp;
+    if (!same_levels) {
+      cut_lnp.resize(n_cut);
+      level_rows.resize(n_cut);
+      mid_rows.assign(n_cut > 0 ? n_cut - 1 : 0, nullptr);
+      for (std::size_t k = 0; k < n_cut; ++k) {
+        cut_lnp[k] = levels[k].lnp;
+        level_rows[k] = row_cache.find(levels[k].lnp, table);
+        if (k > 0) mid_rows[k - 1] = row_cache.find(0.5 * (levels[k - 1].lnp + levels[k].lnp), table);
+      }
+    }
     const double eps = settings.min_excess_k;
     for (int k = 0; k < n_an; ++k) {
       Level& lv = levels[k];
-      lv.row = row_cache.find(lv.lnp, table);
+      lv.row = level_rows[static_cast<std::size_t>(k)];
       double slope = 0;
       lv.theta_w_star = lv.row ? table.theta_w_k(*lv.row, lv.t, virtual_mode ? nullptr : &slope)
                                : table.theta_w_k(lv.t, lv.lnp, virtual_mode ? nullptr : &slope);
@@ -592,7 +616,7 @@ struct ColumnAnalyzer::Impl {
       double slope = 0;
       Segment& sg = segs[k];
       const double lnp_m = 0.5 * (a.lnp + b.lnp);
-      sg.mid_row = row_cache.find(lnp_m, table);
+      sg.mid_row = mid_rows[static_cast<std::size_t>(k)];
       const double sat_m = saturation_theta_w(0.5 * (a.t + b.t), 0.5 * (a.r + b.r), lnp_m, sg.mid_row, &slope);
       sg.sat = Quadratic::through(a.sat, sat_m, b.sat);
       sg.sat_eps = Quadratic::through(a.sat_eps, sat_m + eps * slope, b.sat_eps);
