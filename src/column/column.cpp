@@ -222,7 +222,11 @@ struct ColumnAnalyzer::Impl {
   std::vector<Segment> segs;       // n_an - 1 layers
   std::vector<double> suffix_eps;  // min of sat_eps over layers k.. top
   std::vector<Parcel> parcels;     // one per level (filled lazily: source layer, or all with level fields)
-  std::vector<double> input_p, input_lnp;  // the last pressure array seen, and its ln p
+  struct PressureLayout {
+    std::vector<double> p, lnp;  // a pressure array seen, and its ln p
+    std::vector<int> order;      // its indices, bottom up
+  };
+  PressureLayout layouts[2];     // the two most recent arrays
   std::vector<int> order;          // input indices, bottom up
   std::vector<int> rank_of_input;  // input index -> position in order
   std::vector<int> position_of_input;  // input index -> position in levels (-1 unusable)
@@ -481,26 +485,35 @@ struct ColumnAnalyzer::Impl {
     position_of_input.assign(n, -1);
     const double* p = in.pressure_pa;
     // A grid's columns share their pressure levels: the vertical order and ln p are
-    // worked out once for a pressure array and reused while it repeats.
-    if (n != input_p.size() || (n > 0 && std::memcmp(p, input_p.data(), n * sizeof(double)) != 0)) {
-      input_p.assign(p, p + n);
-      input_lnp.resize(n);
-      for (std::size_t i = 0; i < n; ++i) input_lnp[i] = p[i] > 0 ? std::log(p[i]) : kNaN;
-      order.resize(n);
-      std::iota(order.begin(), order.end(), 0);
+    // worked out once for a pressure array and reused while it repeats (two arrays are
+    // remembered, so that files mixing both vertical orders also hit).
+    PressureLayout* layout = nullptr;
+    for (PressureLayout& candidate : layouts)
+      if (n == candidate.p.size() && (n == 0 || std::memcmp(p, candidate.p.data(), n * sizeof(double)) == 0))
+        layout = &candidate;
+    if (!layout) {
+      std::swap(layouts[0], layouts[1]);  // the most recent moves to [0]; the older is replaced
+      layout = &layouts[1];
+      layout->p.assign(p, p + n);
+      layout->lnp.resize(n);
+      for (std::size_t i = 0; i < n; ++i) layout->lnp[i] = p[i] > 0 ? std::log(p[i]) : kNaN;
+      layout->order.resize(n);
+      std::iota(layout->order.begin(), layout->order.end(), 0);
       bool down = true, up = true;
       for (std::size_t i = 1; i < n; ++i) {
         if (!(p[i] < p[i - 1])) down = false;
         if (!(p[i] > p[i - 1])) up = false;
       }
       if (up)
-        std::reverse(order.begin(), order.end());
+        std::reverse(layout->order.begin(), layout->order.end());
       else if (!down)
-        std::stable_sort(order.begin(), order.end(), [&](int a, int b) {
+        std::stable_sort(layout->order.begin(), layout->order.end(), [&](int a, int b) {
           const double pa = std::isnan(p[a]) ? -1 : p[a], pb = std::isnan(p[b]) ? -1 : p[b];
           return pa > pb;
         });
     }
+    order = layout->order;
+    const std::vector<double>& input_lnp = layout->lnp;
     const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
     const double top = settings.top_pressure_pa;
     for (int i : order) {
