@@ -14,32 +14,6 @@ void check(int status, const std::string& file, const std::string& variable, con
   throw Error(text + ": " + action + ": " + nc_strerror(status));
 }
 
-NcFile NcFile::open(const std::string& path) {
-  int id = -1;
-  int status = nc_open(path.c_str(), NC_NOWRITE, &id);
-  if (status != NC_NOERR)
-    throw InputError(path, "", std::string("a readable NetCDF file (") + nc_strerror(status) + ")");
-  return NcFile(id, path);
-}
-
-NcFile NcFile::create(const std::string& path) {
-  int id = -1;
-  check(nc_create(path.c_str(), NC_NETCDF4 | NC_CLOBBER, &id), path, "", "cannot create");
-  return NcFile(id, path);
-}
-
-NcFile::NcFile(NcFile&& other) noexcept : id_(other.id_), path_(std::move(other.path_)) { other.id_ = -1; }
-
-NcFile::~NcFile() {
-  if (id_ >= 0) nc_close(id_);
-}
-
-void NcFile::close() {
-  int id = id_;
-  id_ = -1;
-  if (id >= 0) check(nc_close(id), path_, "", "cannot close");
-}
-
 VarInfo var_info(const NcFile& file, int varid) {
   VarInfo info;
   info.id = varid;

@@ -10,6 +10,7 @@
 #include <string>
 #include <vector>
 
+#include "io/netcdf_util.hpp"
 #include "latentlift/crs.hpp"
 
 namespace latentlift::gis::detail {
@@ -17,26 +18,8 @@ namespace latentlift::gis::detail {
 /// Throws latentlift::Error naming the file, variable and action when status is not NC_NOERR.
 void check(int status, const std::string& file, const std::string& variable, const std::string& action);
 
-/// An open NetCDF dataset; closed by the destructor (close() reports errors).
-class NcFile {
- public:
-  /// Opens for reading; InputError when the file is missing or not NetCDF.
-  static NcFile open(const std::string& path);
-  /// Creates a NetCDF-4 file (clobbering).
-  static NcFile create(const std::string& path);
-  NcFile(NcFile&& other) noexcept;
-  NcFile& operator=(NcFile&&) = delete;
-  NcFile(const NcFile&) = delete;
-  ~NcFile();
-  void close();
-  int id() const { return id_; }
-  const std::string& path() const { return path_; }
-
- private:
-  NcFile(int id, std::string path) : id_(id), path_(std::move(path)) {}
-  int id_ = -1;
-  std::string path_;
-};
+/// An open NetCDF dataset: the one RAII owner of netCDF ids (src/io/netcdf_util.hpp).
+using NcFile = io::detail::NcFile;
 
 struct VarInfo {
   int id = -1;

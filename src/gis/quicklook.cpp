@@ -191,7 +191,7 @@ std::vector<std::string> split(const std::string& text) {
 QuicklookSummary quicklook_file(const std::string& input, const std::string& png_path, const QuicklookOptions& options) {
   namespace fs = std::filesystem;
   if (!options.overwrite && fs::exists(png_path)) throw UsageError(png_path + " exists; use --overwrite to replace it");
-  NcFile file = NcFile::open(input);
+  NcFile file = NcFile::open_read(input);
   auto var = find_variable(file, options.field);
   if (!var) throw InputError(input, options.field, "a variable of this name (see ncdump -h for the fields)");
   SourceGrid grid = grid_of(file, *var);

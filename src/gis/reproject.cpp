@@ -85,7 +85,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   if (std::fabs(target_crs.metres_per_unit() - 1.0) > 1e-12)
     throw UsageError("--crs " + options.crs + " measures x/y in units other than metres; choose a metre-based CRS");
 
-  NcFile in = NcFile::open(input);
+  NcFile in = NcFile::open_read(input);
   auto variables = all_variables(in);
   // The grid: from the first variable that has one (fields share the input's horizontal grid).
   std::optional<SourceGrid> grid;
@@ -126,7 +126,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   if (fs::path(output).parent_path().empty()) temporary = temporary.filename();
   ReprojectSummary summary;
   try {
-    NcFile out = NcFile::create(temporary.string());
+    NcFile out = NcFile::create_netcdf4(temporary.string());
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);
     write_text(out, NC_GLOBAL, "Conventions", "CF-1.8");
     std::string method_text = options.method == ResampleMethod::nearest ? "nearest" : options.method == ResampleMethod::bilinear ? "bilinear" : "automatic";

@@ -5,7 +5,6 @@
 #include "stats/stats_netcdf.hpp"
 
 #include <netcdf.h>
-#include <udunits2.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -16,6 +15,9 @@
 #include <filesystem>
 #include <limits>
 #include <mutex>
+
+#include "io/netcdf_util.hpp"
+#include "io/units.hpp"
 #include <set>
 #include <sstream>
 #include <utility>
@@ -34,57 +36,10 @@ void check(int status, const std::string& file, const std::string& what) {
   if (status != NC_NOERR) throw Error(file + ": " + what + ": " + nc_strerror(status));
 }
 
-// RAII owner of a netCDF id.
-class Nc {
- public:
-  static Nc open(const std::string& path) {
-    Nc f;
-    int status = nc_open(path.c_str(), NC_NOWRITE, &f.id_);
-    if (status != NC_NOERR) {
-      f.id_ = -1;
-      throw InputError(path, "", std::string("expected a readable NetCDF file (") + nc_strerror(status) + ")");
-    }
-    f.path_ = path;
-    return f;
-  }
-  static Nc create(const std::string& path) {
-    Nc f;
-    int status = nc_create(path.c_str(), NC_CLOBBER | NC_NETCDF4, &f.id_);
-    if (status != NC_NOERR) {
-      f.id_ = -1;
-      check(status, path, "cannot create");
-    }
-    f.path_ = path;
-    return f;
-  }
-  Nc() = default;
-  Nc(Nc&& o) noexcept : id_(std::exchange(o.id_, -1)), path_(std::move(o.path_)) {}
-  Nc& operator=(Nc&& o) noexcept {
-    if (this != &o) {
-      if (id_ >= 0) nc_close(id_);
-      id_ = std::exchange(o.id_, -1);
-      path_ = std::move(o.path_);
-    }
-    return *this;
-  }
-  ~Nc() {
-    if (id_ >= 0) nc_close(id_);
-  }
-  void close() {
-    if (id_ >= 0) check(nc_close(std::exchange(id_, -1)), path_, "closing");
-  }
-  int id() const { return id_; }
-  const std::string& path() const { return path_; }
+// The one RAII owner of netCDF ids (src/io/netcdf_util.hpp).
+using Nc = io::detail::NcFile;
 
- private:
-  int id_ = -1;
-  std::string path_;
-};
-
-int find_var(int nc, const std::string& name) {
-  int varid = -1;
-  return nc_inq_varid(nc, name.c_str(), &varid) == NC_NOERR ? varid : -1;
-}
+using io::detail::find_var;
 
 std::string text_att(int nc, int varid, const char* name) {
   nc_type type;
@@ -175,39 +130,18 @@ bool is_time_var(int nc, int varid) {
 
 // ---- UDUNITS-2 conversion to the units of the statistics ----------------------------
 
-std::mutex& udunits_mutex() {
-  static std::mutex m;
-  return m;
-}
-
-ut_system* unit_system() {
-  static ut_system* system = [] {
-    ut_set_error_message_handler(ut_ignore);
-    return ut_read_xml(nullptr);
-  }();
-  return system;
-}
-
 // Returns (scale, offset) with to = scale * from + offset; throws InputError when not convertible.
+// The UDUNITS-2 layer is io's (src/io/units.hpp), the one owner of the unit database.
 std::pair<double, double> unit_conversion(const std::string& from, const std::string& to,
                                           const std::string& file, const std::string& variable) {
   if (from == to) return {1.0, 0.0};
-  std::lock_guard<std::mutex> lock(udunits_mutex());
-  ut_system* system = unit_system();
-  if (!system) throw Error("UDUNITS-2: cannot read the unit database");
-  ut_unit* a = ut_parse(system, from.c_str(), UT_ASCII);
-  ut_unit* b = ut_parse(system, to.c_str(), UT_ASCII);
-  cv_converter* cv = (a && b) ? ut_get_converter(a, b) : nullptr;
-  std::pair<double, double> result{1.0, 0.0};
-  if (cv) {
-    const double offset = cv_convert_double(cv, 0.0);
-    result = {cv_convert_double(cv, 1.0) - offset, offset};
-    cv_free(cv);
+  try {
+    const io::detail::UnitConverter converter(io::detail::normalise_unit(from), to);
+    const double offset = converter.convert(0.0);
+    return {converter.convert(1.0) - offset, offset};
+  } catch (const std::invalid_argument&) {
+    throw InputError(file, variable, "units convertible to '" + to + "', got '" + from + "'");
   }
-  ut_free(a);
-  ut_free(b);
-  if (!cv) throw InputError(file, variable, "units convertible to '" + to + "', got '" + from + "'");
-  return result;
 }
 
 // ---- analyze outputs ---------------------------------------------------------
@@ -307,12 +241,12 @@ Settings settings_from_toml(const std::string& toml) {
 }
 
 bool is_analysis_output(const std::string& path) {
-  Nc nc = Nc::open(path);
+  Nc nc = Nc::open_read(path);
   return find_var(nc.id(), "latent_class") >= 0 && find_var(nc.id(), "mu_cape") >= 0;
 }
 
 AnalysisInput scan_analysis_output(const std::string& path) {
-  Nc nc = Nc::open(path);
+  Nc nc = Nc::open_read(path);
   AnalysisInput in;
   in.path = path;
   const int cls = find_var(nc.id(), "latent_class");
@@ -435,7 +369,7 @@ AnalysisReader::AnalysisReader(const AnalysisInput& input, bool with_levels) : i
   try {
     impl_->input = input;
     impl_->with_levels = with_levels;
-    impl_->nc = Nc::open(input.path);
+    impl_->nc = Nc::open_read(input.path);
     const int cls = find_var(impl_->nc.id(), "latent_class");
     impl_->time_dim = find_time_axis(impl_->nc.id(), cls, input.path, "latent_class").dimid;
     for (int f = 0; f < kFieldCount; ++f)
@@ -696,12 +630,12 @@ struct Writer {
 }  // namespace
 
 bool is_stats_file(const std::string& path) {
-  Nc nc = Nc::open(path);
+  Nc nc = Nc::open_read(path);
   return !text_att(nc.id(), NC_GLOBAL, "latentlift_climatology_format").empty();
 }
 
 StatsMetadata read_stats_metadata(const std::string& path) {
-  Nc nc = Nc::open(path);
+  Nc nc = Nc::open_read(path);
   const int id = nc.id();
   if (text_att(id, NC_GLOBAL, "latentlift_climatology_format").empty() || find_var(id, "count") < 0)
     throw InputError(path, "", "a latentlift climatology file (written by latentlift climatology)");
@@ -746,7 +680,7 @@ StatsMetadata read_stats_metadata(const std::string& path) {
 }
 
 Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata& meta) {
-  Nc nc = Nc::open(path);
+  Nc nc = Nc::open_read(path);
   const int id = nc.id();
   Accumulator acc(meta.group_by, meta.grid.points, static_cast<int>(meta.grid.levels));
   const size_t cells = acc.count.size();
@@ -826,7 +760,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   const Grid& grid = meta.grid;
   const int groups = acc.groups();
   const auto& specs = field_specs();
-  Nc out = Nc::create(tmp);
+  Nc out = Nc::create_netcdf4(tmp);
   Writer w{out.id(), tmp};
   const int nc = out.id();
 
@@ -851,7 +785,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   const int dim_vt = w.def_dim("valid_time", meta.valid_times.size());
 
   // copied grid variables
-  Nc tpl = Nc::open(template_path);
+  Nc tpl = Nc::open_read(template_path);
   std::vector<std::pair<int, int>> copies;  // (template varid, output varid)
   for (int v : template_vars(tpl.id(), grid, own)) {
     char name[NC_MAX_NAME + 1] = {0};

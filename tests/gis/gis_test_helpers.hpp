@@ -46,7 +46,7 @@ struct Field {
 
 inline Field read_field(const std::string& path, const std::string& name, const std::string& xname,
                         const std::string& yname) {
-  auto file = gis::detail::NcFile::open(path);
+  auto file = gis::detail::NcFile::open_read(path);
   Field f;
   f.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
   f.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));

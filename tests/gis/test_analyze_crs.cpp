@@ -46,7 +46,7 @@ TEST(AnalyzeOutputCrs, GdallocationinfoMatchesTheColumnCommand) {
   std::string out = dir + "/out.nc";
   auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
   ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
-  NcFile file = NcFile::open(out);
+  NcFile file = NcFile::open_read(out);
   auto mapping_var = gis::detail::text_attribute(file, gis::detail::find_variable(file, "mu_cape")->id, "grid_mapping");
   auto mapping = gis::detail::read_attributes(file, gis::detail::find_variable(file, *mapping_var)->id);
   Field f = read_field(out, "mu_cape", "x", "y");
@@ -109,7 +109,7 @@ TEST(AnalyzeOutputCrs, LatLonAddedToAProjectedGridAgreeWithProjAndKeepGdalOnTheG
 
   Field f = read_field(out, "mu_cape", "x", "y");
   Field lat = read_field(out, "lat", "x", "y"), lon = read_field(out, "lon", "x", "y");
-  auto file = NcFile::open(out);
+  auto file = NcFile::open_read(out);
   auto expected = gis::latlon_of_projected(
       gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id), f.x, f.y);
   for (std::size_t k = 0; k < expected.latitude_deg.size(); ++k) {

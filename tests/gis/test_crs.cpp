@@ -28,7 +28,7 @@ struct NativeGrid {
 };
 
 NativeGrid read_native_grid(const std::string& path, const std::string& xname, const std::string& yname) {
-  auto file = gis::detail::NcFile::open(path);
+  auto file = gis::detail::NcFile::open_read(path);
   NativeGrid grid;
   grid.mapping = gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id);
   grid.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));

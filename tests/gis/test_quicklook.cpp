@@ -67,7 +67,7 @@ struct Grid {
 };
 
 Grid read_grid(const std::string& path, const std::string& field, const std::string& xname, const std::string& yname) {
-  NcFile file = NcFile::open(path);
+  NcFile file = NcFile::open_read(path);
   Grid g;
   g.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
   g.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));

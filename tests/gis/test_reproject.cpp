@@ -63,7 +63,7 @@ TEST(Reproject, GdallocationinfoReturnsTheSourceValueOfTheNearestCell) {
   const double west = 0, south = 44, cell = 0.2;
   reproject(in, out, "--crs EPSG:4326 --resolution 0.2 --bbox 0,44,14,52 --method nearest");
   Field source = read_field(in, "latent_layer_depth", "rlon", "rlat");
-  NcFile file = NcFile::open(in);
+  NcFile file = NcFile::open_read(in);
   auto crs = gis::Crs::from_grid_mapping(
       gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id), in, "crs");
   gis::Transformer to_rotated(gis::Crs::wgs84(), crs);
@@ -210,7 +210,7 @@ TEST(Reproject, ClassesSurviveARoundTripWithOnlyValidClassValues) {
   for (const auto& [path, x, y] : {std::tuple{utm, "x", "y"}, std::tuple{back, "lon", "lat"}}) {
     std::set<double> values = values_of(path, x, y);
     EXPECT_EQ(values, (std::set<double>{0, 1, 2})) << path;
-    NcFile file = NcFile::open(path);
+    NcFile file = NcFile::open_read(path);
     auto var = *gis::detail::find_variable(file, "latent_class");
     EXPECT_EQ(var.type, NC_BYTE);
     EXPECT_EQ(gis::detail::text_attribute(file, var.id, "flag_meanings").value_or(""),
@@ -224,7 +224,7 @@ TEST(Reproject, UnstructuredGridUsesTheNearestCellAndIsMissingFarAway) {
   std::string in = make_cf_grid(dir, "unstructured");
   std::string out = dir + "/ll.nc";
   reproject(in, out, "--crs EPSG:4326 --resolution 0.25 --bbox -5,35,17,54");
-  NcFile source = NcFile::open(in);
+  NcFile source = NcFile::open_read(in);
   auto values = gis::detail::read_doubles(source, *gis::detail::find_variable(source, "mu_cape"));
   std::set<float> source_values(values.begin(), values.end());
   Field f = read_field(out, "mu_cape", "lon", "lat");
