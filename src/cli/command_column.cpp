@@ -22,6 +22,7 @@ namespace latentlift::cli {
 namespace {
 
 struct ColumnArgs {
+  std::vector<std::string> inputs;  // like analyze: fields may be split across files
   std::string input, config, format = "table";
   std::vector<std::string> sets;
   double lat = 0.0, lon = 0.0;
@@ -66,7 +67,7 @@ int run_column(const ColumnArgs& args) {
     throw UsageError("--format: expected table, csv or json, got " + args.format);
   if (!(args.lat >= -90.0 && args.lat <= 90.0)) throw UsageError("--lat: expected -90 to 90 degrees");
   RunConfig config = load_config(args.config, args.sets);
-  InputDataset input(std::vector<std::string>{args.input}, config.aliases);
+  InputDataset input(args.inputs, config.aliases);
   const GridDescription& grid = input.grid();
   if (args.time >= grid.n_times)
     throw UsageError("--time " + std::to_string(args.time) + ": the input has " + std::to_string(grid.n_times) +
@@ -237,7 +238,10 @@ int run_column(const ColumnArgs& args) {
 void add_column_command(CLI::App& app, int& exit_code) {
   auto args = std::make_shared<ColumnArgs>();
   CLI::App* cmd = app.add_subcommand("column", "Analyse the grid column nearest a point and print it level by level");
-  cmd->add_option("input", args->input, "Input NetCDF file")->required()->check(CLI::ExistingFile);
+  cmd->add_option("input", args->inputs,
+                  "Input NetCDF file (more files: fields split across them, e.g. surface pressure)")
+      ->required()
+      ->check(CLI::ExistingFile);
   cmd->add_option("--lat", args->lat, "Latitude, degrees north")->required();
   cmd->add_option("--lon", args->lon, "Longitude, degrees east")->required();
   cmd->add_option("--time", args->time, "Time index (0-based)");
@@ -246,7 +250,11 @@ void add_column_command(CLI::App& app, int& exit_code) {
   cmd->add_option("--set", args->sets, "Override a configuration key: section.key=value (repeatable)")
       ->allow_extra_args(false)
       ->take_all();
-  cmd->callback([args, &exit_code] { exit_code = run_column(*args); });
+  cmd->callback([args, &exit_code] {
+    args->input.clear();  // the files, as named in messages and the JSON report
+    for (const std::string& f : args->inputs) args->input += (args->input.empty() ? "" : " ") + f;
+    exit_code = run_column(*args);
+  });
 }
 
 }  // namespace latentlift::cli

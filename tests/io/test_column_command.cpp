@@ -44,6 +44,28 @@ TEST(ColumnFormats, TableNamesTheChosenColumnAndItsDistance) {
   EXPECT_NE(r.output.find("latent_class"), std::string::npos) << r.output;
 }
 
+TEST(ColumnInputs, SurfacePressureFromASecondFileMarksLevelsBelowGround) {
+  // Real NCEP GFS output (NOAA/NWS/NCEP, public domain; sample files from the pygrib
+  // repository): pressure-level fields in one file, surface pressure in another. Over the
+  // high plateau at 30 N 90 E the surface lies near 520 hPa (the file's own sp field), so
+  // the levels from 1000 to 550 hPa are below ground and must be reported missing.
+  const std::string dir = test::real_data_dir() + "/ncep-nwp-pressure-levels/derived-netcdf/";
+  const std::string pl = dir + "gfs_2p5deg_20110110_12z_f120_pl_t_gh_r.nc";
+  const std::string sfc = dir + "gfs_2p5deg_20110110_12z_f120_sfc_sp_orog_cape_cin.nc";
+  if (!std::ifstream(pl) || !std::ifstream(sfc)) GTEST_SKIP() << "shared real data not found at " << dir;
+  test::CommandResult r = run_command(test::binary() + " column " + pl + " " + sfc + " --lat 30 --lon 90 --format csv");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  // CSV rows start with the pressure; the dew point (4th column) is empty below ground.
+  EXPECT_NE(r.output.find("\n1000.00,"), std::string::npos) << r.output;
+  const std::size_t row_1000 = r.output.find("\n1000.00,");
+  const std::string line_1000 = r.output.substr(row_1000 + 1, r.output.find('\n', row_1000 + 1) - row_1000 - 1);
+  EXPECT_NE(line_1000.find(",,"), std::string::npos) << "1000 hPa should be below ground: " << line_1000;
+  const std::size_t row_500 = r.output.find("\n500.00,");
+  ASSERT_NE(row_500, std::string::npos) << r.output;
+  const std::string line_500 = r.output.substr(row_500 + 1, r.output.find('\n', row_500 + 1) - row_500 - 1);
+  EXPECT_EQ(line_500.find(",,"), std::string::npos) << "500 hPa is above ground: " << line_500;
+}
+
 TEST(ColumnFormats, UnknownFormatIsBadUsage) {
   test::CommandResult r = run_command(column("--lat 0 --lon 0 --format xml"));
   EXPECT_EQ(r.exit_code, 2) << r.output;
