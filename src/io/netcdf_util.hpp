@@ -1,4 +1,4 @@
-// Internal to src/io: RAII owner of a netCDF id, status checks and attribute helpers.
+// The one RAII owner of netCDF ids (used by io, gis and stats), status checks and attribute helpers.
 // netCDF-C is not thread-safe: every call goes under netcdf_mutex().
 #pragma once
 
