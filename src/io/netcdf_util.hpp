@@ -1,5 +1,6 @@
 // The one RAII owner of netCDF ids (used by io, gis and stats), status checks and attribute helpers.
-// netCDF-C is not thread-safe: every call goes under netcdf_mutex().
+// netCDF-C is not thread-safe: io takes netcdf_mutex() around its calls, since its pipeline reads
+// and writes on a background thread; code calling netCDF while a pipeline runs must take it too.
 #pragma once
 
 #include <mutex>
