@@ -16,8 +16,13 @@
 //  4. only the reported parcels (most unstable, and those whose excess is needed
 //     for a layer boundary or a level field) get an explicit ascent: buoyancy
 //     (K) evaluated along the parcel's pseudo-adiabat with one table look-up per
-//     point, maximum excess from a parabola per layer, CAPE and CIN by the
-//     trapezoidal rule on sub-steps, positive or negative part only.
+//     point (walk): on each piece of the ascent (a layer, split at the LCL) the
+//     buoyancy is the parabola through the piece's ends and midpoint, whose
+//     maximum and positive / negative areas are exact; CAPE and CIN follow.
+//
+// Reading order: load -> build_analysis_column -> init_parcel (LCL, theta_w, flag,
+// find_lfc) -> full_ascent (walk, find_el) -> analyze (MU parcel, easiest lift,
+// layers) -> fill_level_fields.
 #include "latentlift/column.hpp"
 
 #include <algorithm>
