@@ -158,6 +158,7 @@ struct ClimatologyOptions {
   std::string command_line;   // recorded in the history attribute
   std::string config_path;    // --config, for model inputs (the analysis is run)
   std::vector<std::string> overrides;  // --set section.key=value, for model inputs
+  bool level_fields = false;  // --level-fields: model inputs also give stability class counts
 };
 
 /// Summary of a run (on rank 0: totals over all ranks).

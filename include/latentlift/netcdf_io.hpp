@@ -85,6 +85,8 @@ struct FieldSet {
   std::map<std::string, std::vector<float>> real;
   std::map<std::string, std::vector<std::int8_t>> byte;
   QcCounts qc;
+  /// With level fields, from analyze_in_memory: stability_class per [level][column], input level order.
+  std::vector<std::int8_t> stability_class_levels;
 };
 
 /// Per-level output fields of one block, [field][level][column in block].

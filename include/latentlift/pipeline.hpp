@@ -42,7 +42,8 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
                            OutputOptions output_options);
 
 /// Analyse `input` in memory: consumer(input_step, fields) is called once per outer step of the
-/// chosen time indices, in order, with the scalar fields (DESIGN names, output units).
+/// chosen time indices, in order, with the scalar fields (DESIGN names, output units); with
+/// options.level_fields also FieldSet::stability_class_levels.
 RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& options,
                              const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer);
 

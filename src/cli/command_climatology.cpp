@@ -23,7 +23,7 @@ struct ClimatologyArgs {
   std::string output, group, config;
   std::vector<std::string> sets;
   int threads = 0;
-  bool update = false, quiet = false;
+  bool update = false, quiet = false, level_fields = false;
 };
 
 std::string utc_now() {
@@ -46,11 +46,13 @@ int run(const ClimatologyArgs& args) {
   options.quiet = args.quiet;
   options.config_path = args.config;
   options.overrides = args.sets;
+  options.level_fields = args.level_fields;
   std::string words = utc_now() + " latentlift climatology";
   for (const auto& in : args.inputs) words += " " + in;
   words += " -o " + args.output;
   if (!args.group.empty()) words += " --group " + args.group;
   if (args.update) words += " --update";
+  if (args.level_fields) words += " --level-fields";
   if (!args.config.empty()) words += " --config " + args.config;
   for (const auto& s : args.sets) words += " --set " + s;
   options.command_line = words;
@@ -89,6 +91,8 @@ void add_climatology_command(CLI::App& app, int& exit_code) {
   cmd->add_option("--threads", args->threads, "Threads over columns per process (default: all cores)")
       ->check(CLI::PositiveNumber);
   cmd->add_flag("--quiet", args->quiet, "No run summary");
+  cmd->add_flag("--level-fields", args->level_fields,
+                "Model inputs: also count the static stability classes of every layer (slower)");
   cmd->callback([args, &exit_code] { exit_code = run(*args); });
 }
 

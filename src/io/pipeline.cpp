@@ -343,14 +343,25 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
     if (t >= grid.n_times)
       throw UsageError("time index " + std::to_string(t) + " outside the input (" + std::to_string(grid.n_times) +
                        " time steps)");
-  PipelineOptions scalar_only = options;
-  scalar_only.level_fields = false;
-  Runner runner(input, scalar_only);
+  Runner runner(input, options);
   RunSummary summary;
   FieldSet fields;
+  const std::size_t nz = grid.vertical.length;
+  // With level fields the consumer gets the stability classes per level (the climatology
+  // counts them); the other per-level fields are not kept.
+  std::function<void(const LevelFieldBlock&)> level_sink;
+  if (options.level_fields)
+    level_sink = [&fields, nz, n = grid.n_columns](const LevelFieldBlock& block) {
+      const std::vector<std::int8_t>& classes = block.byte.at("stability_class");
+      const std::size_t count = block.range.count;
+      for (std::size_t k = 0; k < nz; ++k)
+        std::copy_n(classes.begin() + static_cast<std::ptrdiff_t>(k * count), count,
+                    fields.stability_class_levels.begin() + static_cast<std::ptrdiff_t>(k * n + block.range.begin));
+    };
   const std::vector<std::size_t> steps = steps_of_times(grid, options.time_indices);
   for (std::size_t i = 0; i < steps.size(); ++i) {
-    runner.run_step(steps[i], i, steps.size(), fields, {});
+    if (options.level_fields) fields.stability_class_levels.assign(nz * grid.n_columns, kByteMissing);
+    runner.run_step(steps[i], i, steps.size(), fields, level_sink);
     summary.qc.add(fields.qc);
     consumer(steps[i], fields);
   }

@@ -59,7 +59,7 @@ Grid grid_of(const GridDescription& g) {
   return grid;
 }
 
-Source scan_model_input(const std::string& path, const RunConfig& config) {
+Source scan_model_input(const std::string& path, const RunConfig& config, bool level_fields) {
   Source s;
   s.path = path;
   s.analysis_output = false;
@@ -79,6 +79,10 @@ Source scan_model_input(const std::string& path, const RunConfig& config) {
   for (double v : g.time_values)
     s.valid_times.push_back(static_cast<std::int64_t>(std::llround(v * units.seconds_per_unit)) + units.epoch_s);
   s.grid = grid_of(g);
+  if (level_fields) {  // the analysis runs with level fields: stability classes per level
+    s.grid.level_dim = g.vertical.name;
+    s.grid.levels = g.vertical.length;
+  }
   s.settings = detail::settings_from_toml(config_to_toml(config));
   return s;
 }
@@ -245,7 +249,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
           config = load_config(options.config_path, options.overrides);
           config_loaded = true;
         }
-        sources.push_back(scan_model_input(path, config));
+        sources.push_back(scan_model_input(path, config, options.level_fields));
       }
     }
     // one grid, one set of analysis settings, level statistics only when every input has them
@@ -309,6 +313,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
         PipelineOptions po;
         po.config = config;
         po.threads = options.threads;
+        po.level_fields = meta.grid.levels > 0;
         for (std::size_t k = i; k < j; ++k) po.time_indices.push_back(items[k].time_index);
         analyze_in_memory(input, po, [&](std::size_t step, const FieldSet& fields) {
           const std::size_t t = time_index_of_step(input.grid(), step);
@@ -320,7 +325,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
           auto cls = fields.byte.find("latent_class");
           if (cls == fields.byte.end()) throw Error("pipeline did not deliver latent_class");
           buffers.latent_class = cls->second;
-          buffers.stability.clear();
+          buffers.stability = fields.stability_class_levels;  // empty without level fields
           acc.add(buffers.view(src.valid_times.at(t)));
         });
       }

@@ -183,6 +183,24 @@ TEST(ClimatologyCommand, ModelInputsAreAnalysedLikeTheirAnalyzeOutput) {
   EXPECT_EQ(same.exit_code, 0) << same.output;
 }
 
+TEST(ClimatologyCommand, ModelInputsWithLevelFieldsCountStabilityClassesLikeTheirAnalyzeOutput) {
+  // climatology --level-fields on a model input runs the analysis with level fields; its
+  // stability class counts (and every other statistic) equal those read back from
+  // `analyze --level-fields` output of the same input (compared by compare_stats.py).
+  const std::string sample = std::string(LATENTLIFT_SOURCE_DIR) + "/sample_grids/aurel_global_5deg.nc";
+  if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid " << sample;
+  const std::string dir = t::scratch_dir("clim_model_input_levels");
+  auto a = t::run_command(t::binary() + " analyze " + sample + " -o " + dir + "/analysis.nc --level-fields --quiet");
+  ASSERT_EQ(a.exit_code, 0) << a.output;
+  ASSERT_EQ(climatology(dir + "/analysis.nc -o " + dir + "/from_output.nc").exit_code, 0);
+  auto m = climatology(sample + " -o " + dir + "/from_model.nc --level-fields");
+  ASSERT_EQ(m.exit_code, 0) << m.output;
+  auto header = t::run_command("ncdump -h " + dir + "/from_model.nc");
+  EXPECT_NE(header.output.find("stability_class_count"), std::string::npos) << header.output;
+  auto same = compare(dir + "/from_output.nc", dir + "/from_model.nc", "--statistics-only");
+  EXPECT_EQ(same.exit_code, 0) << same.output;
+}
+
 TEST(ClimatologyMpi, TwoAndThreeRanksWriteTheSameFileAsOneProcess) {
   std::string why;
   if (!mpi_runnable(why)) GTEST_SKIP() << why;
