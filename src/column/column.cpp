@@ -411,12 +411,14 @@ struct ColumnAnalyzer::Impl {
   }
 
   // Lowest point at or above the LCL where the parcel is buoyant (theta_w > sat). A saturated
-  // source level has zero excess at its own LCL; kThetaTieK keeps rounding from calling it buoyant.
+  // source level has zero excess at its own LCL: inside the layer holding the LCL a margin of
+  // kThetaTieK (the tables' accuracy) keeps rounding from calling it buoyant there; above
+  // that layer the crossing is exact.
   double find_lfc(const Parcel& pc) const {
-    const double theta = pc.theta_w - kThetaTieK;
     double s_start = pc.lcl_s;
     double best_gap = -std::numeric_limits<double>::infinity(), best_lnp = kNaN;
     for (int k = pc.lcl_seg; k + 1 < n_an; ++k, s_start = 0.0) {
+      const double theta = k == pc.lcl_seg ? pc.theta_w - kThetaTieK : pc.theta_w;
       const Quadratic& q = segs[k].sat;
       if (q.at(s_start) < theta) return lnp_at(k, s_start);
       if (segs[k].min_sat < theta) {
