@@ -351,7 +351,8 @@ struct ColumnAnalyzer::Impl {
   // the LCL a node); buoyancy on each piece is the parabola through its ends and midpoint,
   // whose maximum and positive/negative areas are exact. With integrals == false the walk
   // starts at the LCL and gives the maximum excess only.
-  WalkResult walk(const Parcel& pc, bool integrals) const {
+  WalkResult walk(const Parcel& pc, bool integrals,
+                  double stop_lnp = -std::numeric_limits<double>::infinity()) const {
     WalkResult out;
     const auto curve = table.curve(pc.theta_w);
     const int substeps = integrals ? settings.cape_substeps : 1;
@@ -390,7 +391,9 @@ struct ColumnAnalyzer::Impl {
     };
     double xa = x_start;
     double ba = buoyancy(k_start, xa);
-    for (int k = k_start; k + 1 < n_an; ++k) {
+    // Layers are walked whole (the same pieces as the excess walk); the walk ends with the
+    // layer that holds stop_lnp.
+    for (int k = k_start; k + 1 < n_an && xa > stop_lnp; ++k) {
       const double hi = levels[k].lnp, lo = levels[k + 1].lnp;
       if (xa <= lo) continue;
       const double share = substeps * (xa - lo) / (hi - lo);  // pieces of this layer left, rounded up
@@ -469,8 +472,10 @@ struct ColumnAnalyzer::Impl {
       return out;
     }
     // Positive area at or above the LCL is the area from the LFC to the EL: the LFC is the
-    // lowest buoyant point above the LCL and nothing above the EL is buoyant.
-    const WalkResult w = walk(pc, true);
+    // lowest buoyant point above the LCL and nothing above the EL is buoyant, so the walk
+    // ends with the layer of the EL (the maximum excess of a flagged parcel lies below it).
+    const double el_lnp = find_el(pc);
+    const WalkResult w = walk(pc, true, el_lnp);
     if (!pc.excess_done) {
       pc.excess = w.max_excess;
       pc.excess_done = true;
@@ -478,7 +483,7 @@ struct ColumnAnalyzer::Impl {
     out.max_excess_k = pc.excess;
     out.flagged = true;
     out.lfc_pressure_pa = std::exp(pc.lfc_lnp);
-    out.el_pressure_pa = std::exp(find_el(pc));
+    out.el_pressure_pa = std::exp(el_lnp);
     out.cape_j_kg = thermo::kRd * w.positive_area;
     out.cin_j_kg = thermo::kRd * w.negative_area;
     return out;
@@ -623,9 +628,12 @@ struct ColumnAnalyzer::Impl {
       Level& lv = levels[k];
       lv.row = level_rows[static_cast<std::size_t>(k)];
       double slope = 0;
-      lv.theta_w_star = lv.row ? table.theta_w_k(*lv.row, lv.t, virtual_mode ? nullptr : &slope)
-                               : table.theta_w_k(lv.t, lv.lnp, virtual_mode ? nullptr : &slope);
-      lv.sat = virtual_mode ? saturation_theta_w(lv.t, lv.r, lv.lnp, lv.row, &slope) : lv.theta_w_star;
+      if (virtual_mode) {
+        lv.sat = saturation_theta_w(lv.t, lv.r, lv.lnp, lv.row, &slope);
+        lv.theta_w_star = settings.level_fields ? theta_w_star_at(lv) : kNaN;  // else on demand (tangent)
+      } else {
+        lv.theta_w_star = lv.sat = lv.row ? table.theta_w_k(*lv.row, lv.t, &slope) : table.theta_w_k(lv.t, lv.lnp, &slope);
+      }
       lv.sat_eps = lv.sat + eps * slope;
     }
     segs.resize(static_cast<size_t>(std::max(n_an - 1, 0)));
@@ -649,6 +657,30 @@ struct ColumnAnalyzer::Impl {
     n_source = 0;
     const double p_floor = levels[0].p - settings.source_layer_pa;
     while (n_source < n_an && levels[n_source].p >= p_floor - 1e-6 && levels[n_source].index >= 0) ++n_source;
+  }
+
+  double theta_w_star_at(const Level& lv) const {
+    return lv.row ? table.theta_w_k(*lv.row, lv.t) : table.theta_w_k(lv.t, lv.lnp);
+  }
+
+  // In virtual mode theta_w* (from T) is computed only where it can be the minimum: at a level
+  // the environment's mixing ratio is at most saturation, so its virtual temperature is at most
+  // that of saturated air at its temperature and sat <= theta_w*. Levels whose sat already lies
+  // above the smallest theta_w* found cannot hold the tangent point.
+  void compute_tangent_candidates() {
+    constexpr double kMarginK = 0.01;  // well above the tables' inconsistency (< 0.001 K)
+    int first = -1;
+    for (int k = 0; k < n_an; ++k)
+      if (levels[k].index >= 0 && (first < 0 || levels[k].sat < levels[first].sat)) first = k;
+    if (first < 0) return;
+    levels[first].theta_w_star = theta_w_star_at(levels[first]);
+    double best = levels[first].theta_w_star;
+    for (int k = 0; k < n_an; ++k) {
+      Level& lv = levels[k];
+      if (lv.index < 0 || k == first || lv.sat - kMarginK >= best) continue;
+      lv.theta_w_star = theta_w_star_at(lv);
+      best = std::min(best, lv.theta_w_star);
+    }
   }
 
   // Pressure (ln p) where the excess crosses min_excess_k between positions a (flagged) and b.
@@ -679,8 +711,9 @@ struct ColumnAnalyzer::Impl {
     res.qc.columns_analysed = 1;
 
     // Tangent saturated adiabat: minimum theta_w_star over the levels up to the top (lowest on ties).
+    if (virtual_mode && !settings.level_fields) compute_tangent_candidates();
     for (int k = 0; k < n_an; ++k) {
-      if (levels[k].index < 0) continue;
+      if (levels[k].index < 0 || std::isnan(levels[k].theta_w_star)) continue;
       if (std::isnan(res.tangent_theta_w_k) || levels[k].theta_w_star < res.tangent_theta_w_k) {
         res.tangent_theta_w_k = levels[k].theta_w_star;
         res.tangent_pressure_pa = levels[k].p;
