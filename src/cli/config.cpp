@@ -1,5 +1,6 @@
 // Configuration: defaults, TOML file, --set overrides (toml++), validated key by key.
 #include "latentlift/config.hpp"
+#include "latentlift/pseudoadiabat.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -67,6 +68,9 @@ void apply(RunConfig& config, const std::string& section, const std::string& key
       config.analysis.buoyancy = parse_buoyancy_mode(text->c_str());
     } else if (key == "top_pressure_hpa") {
       config.analysis.top_pressure_pa = positive_hpa(node, full, 1100.0);
+      // The pseudo-adiabat tables reach up to 10 hPa (include/latentlift/pseudoadiabat.hpp).
+      if (config.analysis.top_pressure_pa < pseudoadiabat::Table::kPressureMinPa)
+        throw UsageError("config key " + full + ": expected a pressure from 10 to 1100 hPa (the tables end at 10 hPa)");
     } else if (key == "source_layer_hpa") {
       config.analysis.source_layer_pa = positive_hpa(node, full, 1100.0);
     } else if (key == "min_excess_k") {

@@ -72,6 +72,12 @@ TEST(Config, BadValuesAreUsageErrorsNamingTheKey) {
   EXPECT_NE(usage_error_of({"analysis_no_dot"}).find("section.key=value"), std::string::npos);
 }
 
+TEST(Config, AnalysisTopAboveTheTablesIsAUsageErrorNamingTheKey) {
+  // The pseudo-adiabat tables end at 10 hPa (include/latentlift/pseudoadiabat.hpp).
+  EXPECT_NE(usage_error_of({"analysis.top_pressure_hpa=5"}).find("analysis.top_pressure_hpa"), std::string::npos);
+  EXPECT_EQ(usage_error_of({"analysis.top_pressure_hpa=10"}), "");
+}
+
 TEST(Config, UnknownKeyInAFileIsAUsageError) {
   std::string dir = test::scratch_dir("config_unknown");
   std::ofstream(dir + "/c.toml") << "[analysis]\nbuoyancy = \"virtual\"\ncolour = \"blue\"\n";
