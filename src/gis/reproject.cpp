@@ -1,8 +1,6 @@
 // latentlift reproject: every field of an analyze output onto a regular map grid.
 #include "latentlift/reproject.hpp"
 
-#include <unistd.h>
-
 #include <chrono>
 #include <cmath>
 #include <ctime>
@@ -13,6 +11,7 @@
 #include "gis/netcdf_file.hpp"
 #include "gis/resample.hpp"
 #include "gis/source_grid.hpp"
+#include "io/temporary_output.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::gis {
@@ -121,12 +120,10 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   TargetGrid target = make_target_grid(*grid, target_crs, options.resolution, options.bbox);
   ResamplePlan plan(*grid, target, any_bilinear);
 
-  fs::path temporary = fs::path(output).parent_path() /
-                       ("." + fs::path(output).filename().string() + ".tmp-" + std::to_string(::getpid()));
-  if (fs::path(output).parent_path().empty()) temporary = temporary.filename();
+  io::detail::TemporaryOutput staged(output);  // removed unless committed
   ReprojectSummary summary;
-  try {
-    NcFile out = NcFile::create_netcdf4(temporary.string());
+  {
+    NcFile out = NcFile::create_netcdf4(staged.path());
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);
     write_text(out, NC_GLOBAL, "Conventions", "CF-1.8");
     std::string method_text = options.method == ResampleMethod::nearest ? "nearest" : options.method == ResampleMethod::bilinear ? "bilinear" : "automatic";
@@ -278,12 +275,8 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
       }
     }
     out.close();
-    fs::rename(temporary, output);
-  } catch (...) {
-    std::error_code ignored;
-    fs::remove(temporary, ignored);
-    throw;
   }
+  staged.commit();
   summary.nx = target.nx;
   summary.ny = target.ny;
   summary.fields = fields.size();

@@ -1,9 +1,7 @@
 // The NetCDF writer: CF-1.8 NetCDF-4 output through a temporary file renamed into place.
 #include <netcdf.h>
-#include <unistd.h>
 
 #include <cmath>
-#include <csignal>
 #include <cstring>
 #include <cstdio>
 #include <ctime>
@@ -12,6 +10,7 @@
 
 #include "gis/netcdf_crs.hpp"  // grid_mapping completion
 #include "io/dataset_impl.hpp"
+#include "io/temporary_output.hpp"
 #include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
@@ -166,31 +165,6 @@ void write_latlon_grid_mapping(int ncid_out, const std::string& name, const std:
   }
 }
 
-// An interrupted run (Ctrl-C, SIGTERM from a scheduler) must not leave its temporary file
-// behind: the signal handler unlinks it (async-signal-safe) and re-raises the signal.
-char g_temporary_path[4096] = {0};
-volatile std::sig_atomic_t g_temporary_set = 0;
-
-extern "C" void remove_temporary_and_reraise(int signal_number) {
-  if (g_temporary_set) ::unlink(g_temporary_path);
-  std::signal(signal_number, SIG_DFL);
-  std::raise(signal_number);
-}
-
-void register_temporary(const std::string& path) {
-  static const bool installed = [] {
-    for (int sig : {SIGINT, SIGTERM, SIGHUP}) std::signal(sig, remove_temporary_and_reraise);
-    return true;
-  }();
-  (void)installed;
-  g_temporary_set = 0;
-  if (path.size() < sizeof g_temporary_path) {
-    std::memcpy(g_temporary_path, path.c_str(), path.size() + 1);
-    g_temporary_set = 1;
-  }
-}
-
-void forget_temporary() { g_temporary_set = 0; }
 
 }  // namespace
 
@@ -198,6 +172,7 @@ struct OutputWriter::Impl {
   const InputDataset* input = nullptr;
   OutputOptions options;
   std::string target, temporary;
+  std::unique_ptr<d::TemporaryOutput> staged;  // the file being written, renamed on commit
   NcFile file;
   bool committed = false;
   std::vector<OuterDimension> outer;          // output outer dimensions (time subset)
@@ -428,8 +403,8 @@ OutputWriter::OutputWriter(const std::string& target, const InputDataset& input,
   fs::path parent = fs::path(target).parent_path();
   if (!parent.empty() && !fs::is_directory(parent, ec))
     throw UsageError(target + ": output folder " + parent.string() + " does not exist");
-  impl.temporary = target + ".tmp-" + std::to_string(::getpid());
-  register_temporary(impl.temporary);
+  impl.staged = std::make_unique<d::TemporaryOutput>(target);
+  impl.temporary = impl.staged->path();
 
   const GridDescription& grid = input.grid();
   const int time_outer = input.impl().time_outer;
@@ -450,8 +425,7 @@ OutputWriter::OutputWriter(const std::string& target, const InputDataset& input,
     impl.define(input);
   } catch (...) {
     impl.file = NcFile();
-    std::remove(impl.temporary.c_str());
-    forget_temporary();
+    impl.staged.reset();  // removes the temporary file
     throw;
   }
 }
@@ -462,8 +436,7 @@ OutputWriter::~OutputWriter() {
     std::lock_guard<std::mutex> lock(d::netcdf_mutex());
     impl_->file = NcFile();
   }
-  std::remove(impl_->temporary.c_str());
-  forget_temporary();
+  impl_->staged.reset();  // removes the temporary file
 }
 
 std::size_t OutputWriter::n_steps() const {
@@ -596,10 +569,8 @@ void OutputWriter::commit(const QcCounts& qc) {
     d::check(nc_enddef(out), impl.temporary, "leaving define mode");
     impl.file.close();
   }
-  if (std::rename(impl.temporary.c_str(), impl.target.c_str()) != 0)
-    throw Error(impl.target + ": cannot rename " + impl.temporary + " into place");
+  impl.staged->commit();
   impl.committed = true;
-  forget_temporary();
 }
 
 }  // namespace latentlift

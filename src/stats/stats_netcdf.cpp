@@ -5,11 +5,9 @@
 #include "stats/stats_netcdf.hpp"
 
 #include <netcdf.h>
-#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
-#include <csignal>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -17,6 +15,7 @@
 #include <mutex>
 
 #include "io/netcdf_util.hpp"
+#include "io/temporary_output.hpp"
 #include "io/units.hpp"
 #include <set>
 #include <sstream>
@@ -572,38 +571,6 @@ std::vector<int> template_vars(int nc, const Grid& grid, const std::set<std::str
   return result;
 }
 
-// An interrupted run (Ctrl-C, SIGTERM from a scheduler) must not leave STATS.nc's temporary
-// file behind: the handler unlinks it (async-signal-safe) and passes the signal on to the
-// handler it replaced (another module's, or the default action).
-char g_temporary_path[4096] = {0};
-volatile std::sig_atomic_t g_temporary_set = 0;
-using Handler = void (*)(int);
-Handler g_previous[3] = {SIG_DFL, SIG_DFL, SIG_DFL};
-constexpr int kSignals[3] = {SIGINT, SIGTERM, SIGHUP};
-
-extern "C" void remove_stats_temporary(int signal_number) {
-  if (g_temporary_set) ::unlink(g_temporary_path);
-  for (int i = 0; i < 3; ++i)
-    if (kSignals[i] == signal_number) {
-      Handler previous = g_previous[i] == SIG_ERR || g_previous[i] == SIG_IGN ? SIG_DFL : g_previous[i];
-      std::signal(signal_number, previous);
-    }
-  std::raise(signal_number);
-}
-
-void register_temporary(const std::string& path) {
-  static const bool installed = [] {
-    for (int i = 0; i < 3; ++i) g_previous[i] = std::signal(kSignals[i], remove_stats_temporary);
-    return true;
-  }();
-  (void)installed;
-  g_temporary_set = 0;
-  if (path.size() < sizeof g_temporary_path) {
-    std::memcpy(g_temporary_path, path.c_str(), path.size() + 1);
-    g_temporary_set = 1;
-  }
-}
-
 struct Writer {
   int nc;
   std::string path;
@@ -746,16 +713,8 @@ Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata&
 void write_stats(const std::string& path, const StatsMetadata& meta, const Accumulator& acc,
                  const std::string& template_path) {
   namespace fs = std::filesystem;
-  const std::string tmp = path + ".tmp-" + std::to_string(::getpid());
-  struct Cleanup {
-    std::string file;
-    bool keep = false;
-    ~Cleanup() {
-      g_temporary_set = 0;
-      if (!keep) std::remove(file.c_str());
-    }
-  } cleanup{tmp};
-  register_temporary(tmp);
+  io::detail::TemporaryOutput staged(path);  // removed unless committed
+  const std::string& tmp = staged.path();
 
   const Grid& grid = meta.grid;
   const int groups = acc.groups();
@@ -1063,10 +1022,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     put_u32(v_scc, acc.stability_count, "stability_class_count");
   }
   out.close();
-  std::error_code ec;
-  fs::rename(tmp, path, ec);
-  if (ec) throw Error(path + ": cannot rename the finished file into place: " + ec.message());
-  cleanup.keep = true;
+  staged.commit();
 }
 
 }  // namespace latentlift::climatology::detail
