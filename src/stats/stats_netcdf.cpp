@@ -90,27 +90,9 @@ void put_double_att(int nc, int varid, const char* name, nc_type type, double va
   check(nc_put_att_double(nc, varid, name, type, 1, &value), file, std::string("attribute ") + name);
 }
 
-struct VarDims {
-  std::vector<int> ids;
-  std::vector<std::string> names;
-  std::vector<size_t> lengths;
-};
-
-VarDims var_dims(int nc, int varid) {
-  VarDims d;
-  int ndims = 0;
-  nc_inq_varndims(nc, varid, &ndims);
-  d.ids.resize(ndims);
-  if (ndims) nc_inq_vardimid(nc, varid, d.ids.data());
-  for (int id : d.ids) {
-    char name[NC_MAX_NAME + 1] = {0};
-    size_t len = 0;
-    nc_inq_dim(nc, id, name, &len);
-    d.names.emplace_back(name);
-    d.lengths.push_back(len);
-  }
-  return d;
-}
+// A variable's dimension ids, names and lengths: io's VarShape (src/io/netcdf_util.hpp).
+using VarDims = io::detail::VarShape;
+using io::detail::var_shape;
 
 std::vector<std::string> split_words(const std::string& text) {
   std::istringstream in(text);
@@ -152,12 +134,12 @@ struct TimeAxis {
 
 TimeAxis find_time_axis(int nc, int varid, const std::string& path, const std::string& var) {
   TimeAxis axis;
-  const VarDims dims = var_dims(nc, varid);
+  const VarDims dims = var_shape(nc, varid);
   int time_var = -1;
   for (size_t i = 0; i < dims.names.size(); ++i) {
     int cv = find_var(nc, dims.names[i]);
     if (cv >= 0 && is_time_var(nc, cv)) {
-      axis.dimid = dims.ids[i];
+      axis.dimid = dims.dimids[i];
       time_var = cv;
       break;
     }
@@ -252,10 +234,10 @@ AnalysisInput scan_analysis_output(const std::string& path) {
   if (cls < 0) throw InputError(path, "latent_class", "a latentlift analyze output (variable missing)");
   TimeAxis axis = find_time_axis(nc.id(), cls, path, "latent_class");
   in.valid_times = axis.valid_times;
-  const VarDims dims = var_dims(nc.id(), cls);
+  const VarDims dims = var_shape(nc.id(), cls);
   in.grid.points = 1;
-  for (size_t i = 0; i < dims.ids.size(); ++i) {
-    if (dims.ids[i] == axis.dimid) continue;
+  for (size_t i = 0; i < dims.dimids.size(); ++i) {
+    if (dims.dimids[i] == axis.dimid) continue;
     in.grid.dims.push_back(dims.names[i]);
     in.grid.sizes.push_back(dims.lengths[i]);
     in.grid.points *= dims.lengths[i];
@@ -267,17 +249,17 @@ AnalysisInput scan_analysis_output(const std::string& path) {
   for (const auto& spec : field_specs()) {
     const int v = find_var(nc.id(), spec.name);
     if (v < 0) throw InputError(path, spec.name, "a latentlift analyze output field (variable missing)");
-    VarDims vd = var_dims(nc.id(), v);
-    if (vd.ids != dims.ids) throw InputError(path, spec.name, "the same dimensions as latent_class");
+    VarDims vd = var_shape(nc.id(), v);
+    if (vd.dimids != dims.dimids) throw InputError(path, spec.name, "the same dimensions as latent_class");
   }
   const int stab = find_var(nc.id(), "stability_class");
   if (stab >= 0) {
-    VarDims vd = var_dims(nc.id(), stab);
+    VarDims vd = var_shape(nc.id(), stab);
     std::vector<std::string> rest;
     std::vector<size_t> rest_len;
     std::vector<std::string> horizontal;
-    for (size_t i = 0; i < vd.ids.size(); ++i) {
-      if (vd.ids[i] == axis.dimid) continue;
+    for (size_t i = 0; i < vd.dimids.size(); ++i) {
+      if (vd.dimids[i] == axis.dimid) continue;
       if (std::find(in.grid.dims.begin(), in.grid.dims.end(), vd.names[i]) != in.grid.dims.end()) {
         horizontal.push_back(vd.names[i]);
         continue;
@@ -325,7 +307,7 @@ struct AnalysisReader::Impl {
     v.name = name;
     v.varid = find_var(nc.id(), name);
     if (v.varid < 0) throw InputError(input.path, name, "a latentlift analyze output field (variable missing)");
-    v.dims = var_dims(nc.id(), v.varid);
+    v.dims = var_shape(nc.id(), v.varid);
     auto sf = number_att(nc.id(), v.varid, "scale_factor");
     auto ao = number_att(nc.id(), v.varid, "add_offset");
     if (!sf.empty()) v.scale = sf[0];
@@ -342,10 +324,10 @@ struct AnalysisReader::Impl {
 
   // Reads the slab of time index t into buffer (values in the variable's dimension order, time removed).
   void read_slab(const Var& v, size_t t) {
-    std::vector<size_t> start(v.dims.ids.size(), 0), count(v.dims.lengths);
+    std::vector<size_t> start(v.dims.dimids.size(), 0), count(v.dims.lengths);
     size_t total = 1;
-    for (size_t i = 0; i < v.dims.ids.size(); ++i) {
-      if (v.dims.ids[i] == time_dim) {
+    for (size_t i = 0; i < v.dims.dimids.size(); ++i) {
+      if (v.dims.dimids[i] == time_dim) {
         start[i] = t;
         count[i] = 1;
       }
@@ -416,8 +398,8 @@ void AnalysisReader::read(size_t t, StepBuffers& out) {
     out.stability.resize(nl * np);
     // position of the level dimension among the non-time dimensions
     size_t level_pos = 0, pos = 0;
-    for (size_t i = 0; i < m.stability.dims.ids.size(); ++i) {
-      if (m.stability.dims.ids[i] == m.time_dim) continue;
+    for (size_t i = 0; i < m.stability.dims.dimids.size(); ++i) {
+      if (m.stability.dims.dimids[i] == m.time_dim) continue;
       if (m.stability.dims.names[i] == m.input.grid.level_dim) level_pos = pos;
       ++pos;
     }
@@ -425,8 +407,8 @@ void AnalysisReader::read(size_t t, StepBuffers& out) {
     size_t after = 1;
     {
       size_t k = 0;
-      for (size_t i = 0; i < m.stability.dims.ids.size(); ++i) {
-        if (m.stability.dims.ids[i] == m.time_dim) continue;
+      for (size_t i = 0; i < m.stability.dims.dimids.size(); ++i) {
+        if (m.stability.dims.dimids[i] == m.time_dim) continue;
         if (k > level_pos) after *= m.stability.dims.lengths[i];
         ++k;
       }
@@ -556,7 +538,7 @@ std::vector<int> template_vars(int nc, const Grid& grid, const std::set<std::str
     seen.insert(name);
     int v = find_var(nc, name);
     if (v < 0) continue;
-    VarDims d = var_dims(nc, v);
+    VarDims d = var_shape(nc, v);
     bool ok = true;
     for (size_t i = 0; i < d.names.size(); ++i)
       if (!allowed_dims.count(d.names[i]) && d.lengths[i] > 4) ok = false;  // bounds dims are small
@@ -636,7 +618,7 @@ StatsMetadata read_stats_metadata(const std::string& path) {
   meta.grid.coordinates = join(coords, " ");
   const int vt = find_var(id, "valid_time");
   if (vt < 0) throw InputError(path, "valid_time", "the record of the valid times counted");
-  VarDims d = var_dims(id, vt);
+  VarDims d = var_shape(id, vt);
   meta.valid_times.resize(d.lengths.at(0));
   if (!meta.valid_times.empty())
     check(nc_get_var_longlong(id, vt, reinterpret_cast<long long*>(meta.valid_times.data())), path, "reading valid_time");
@@ -682,7 +664,7 @@ Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata&
     // bins must be the ones of this build
     const int bb = find_var(id, (name + "_bin_bounds").c_str());
     if (bb < 0) throw InputError(path, name + "_bin_bounds", "histogram bin bounds (missing)");
-    VarDims bd = var_dims(id, bb);
+    VarDims bd = var_shape(id, bb);
     const size_t bins = spec.bin_count();
     if (bd.lengths.size() != 2 || bd.lengths[0] != bins)
       throw InputError(path, name + "_bin_bounds", "the histogram bins of this latentlift version (" +
@@ -695,7 +677,7 @@ Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata&
                                                          std::to_string(spec.edges[k]) + ")");
     const int hv = find_var(id, name + "_histogram");
     if (hv < 0) throw InputError(path, name + "_histogram", "climatology state variable (missing)");
-    VarDims hd = var_dims(id, hv);
+    VarDims hd = var_shape(id, hv);
     std::vector<size_t> start(hd.lengths.size(), 0), count(hd.lengths);
     count[0] = 1;
     std::vector<std::uint32_t> buf(bins * meta.grid.points);
@@ -750,7 +732,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     char name[NC_MAX_NAME + 1] = {0};
     nc_type type;
     nc_inq_var(tpl.id(), v, name, &type, nullptr, nullptr, nullptr);
-    VarDims d = var_dims(tpl.id(), v);
+    VarDims d = var_shape(tpl.id(), v);
     std::vector<int> dims;
     for (size_t i = 0; i < d.names.size(); ++i) dims.push_back(w.def_dim(d.names[i], d.lengths[i]));
     const int ov = w.def_var(name, type, dims);
@@ -927,7 +909,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
     nc_inq_vartype(tpl.id(), tv, &type);
     size_t size = 0;
     nc_inq_type(tpl.id(), type, nullptr, &size);
-    VarDims d = var_dims(tpl.id(), tv);
+    VarDims d = var_shape(tpl.id(), tv);
     size_t n = 1;
     for (size_t l : d.lengths) n *= l;
     std::vector<char> buf(n * size);
