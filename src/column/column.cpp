@@ -230,10 +230,10 @@ struct ColumnAnalyzer::Impl {
   struct PressureLayout {
     std::vector<double> p, lnp;  // a pressure array seen, and its ln p
     std::vector<int> order;      // its indices, bottom up
+    std::vector<int> rank;       // input index -> position in order
   };
   PressureLayout layouts[2];     // the two most recent arrays
-  std::vector<int> order;          // input indices, bottom up
-  std::vector<int> rank_of_input;  // input index -> position in order
+  const PressureLayout* layout = nullptr;  // the current column's (order, ln p, ranks)
   std::vector<int> position_of_input;  // input index -> position in levels (-1 unusable)
   int n_source = 0;
   int n_input = 0;
@@ -499,36 +499,38 @@ struct ColumnAnalyzer::Impl {
     // A grid's columns share their pressure levels: the vertical order and ln p are
     // worked out once for a pressure array and reused while it repeats (two arrays are
     // remembered, so that files mixing both vertical orders also hit).
-    PressureLayout* layout = nullptr;
+    PressureLayout* found = nullptr;
     for (PressureLayout& candidate : layouts)
       if (n == candidate.p.size() && (n == 0 || std::memcmp(p, candidate.p.data(), n * sizeof(double)) == 0))
-        layout = &candidate;
-    if (!layout) {
+        found = &candidate;
+    if (!found) {
       std::swap(layouts[0], layouts[1]);  // the most recent moves to [0]; the older is replaced
-      layout = &layouts[1];
-      layout->p.assign(p, p + n);
-      layout->lnp.resize(n);
-      for (std::size_t i = 0; i < n; ++i) layout->lnp[i] = p[i] > 0 ? std::log(p[i]) : kNaN;
-      layout->order.resize(n);
-      std::iota(layout->order.begin(), layout->order.end(), 0);
+      found = &layouts[1];
+      found->p.assign(p, p + n);
+      found->lnp.resize(n);
+      for (std::size_t i = 0; i < n; ++i) found->lnp[i] = p[i] > 0 ? std::log(p[i]) : kNaN;
+      found->order.resize(n);
+      std::iota(found->order.begin(), found->order.end(), 0);
       bool down = true, up = true;
       for (std::size_t i = 1; i < n; ++i) {
         if (!(p[i] < p[i - 1])) down = false;
         if (!(p[i] > p[i - 1])) up = false;
       }
       if (up)
-        std::reverse(layout->order.begin(), layout->order.end());
+        std::reverse(found->order.begin(), found->order.end());
       else if (!down)
-        std::stable_sort(layout->order.begin(), layout->order.end(), [&](int a, int b) {
+        std::stable_sort(found->order.begin(), found->order.end(), [&](int a, int b) {
           const double pa = std::isnan(p[a]) ? -1 : p[a], pb = std::isnan(p[b]) ? -1 : p[b];
           return pa > pb;
         });
+      found->rank.assign(n, -1);
+      for (std::size_t r = 0; r < n; ++r) found->rank[static_cast<std::size_t>(found->order[r])] = static_cast<int>(r);
     }
-    order = layout->order;
+    layout = found;
     const std::vector<double>& input_lnp = layout->lnp;
     const bool has_surface = in.surface_pressure_pa > 0;  // false for NaN too
     const double top = settings.top_pressure_pa;
-    for (int i : order) {
+    for (int i : layout->order) {
       // Levels above the analysis top enter only the level fields; without them one is
       // enough (to interpolate the top). Quality control counts levels up to the top.
       if (!settings.level_fields && !levels.empty() && levels.back().p < top) break;
@@ -796,9 +798,8 @@ struct ColumnAnalyzer::Impl {
   void fill_level_fields(ColumnResult& res) {
     LevelFields& lf = res.levels;
     const double kappa_dry = thermo::kKappaDry;
-    // Rank of each input level in bottom-up order: a layer exists only between neighbours.
-    rank_of_input.assign(order.size(), -1);
-    for (std::size_t r = 0; r < order.size(); ++r) rank_of_input[static_cast<std::size_t>(order[r])] = static_cast<int>(r);
+    // A layer exists only between neighbouring input levels (ranks in bottom-up order).
+    const std::vector<int>& rank_of_input = layout->rank;
     int prev_real = -1;  // position of the previous real level (bottom up)
     for (int k = 0; k < static_cast<int>(levels.size()); ++k) {
       const Level& lv = levels[k];
