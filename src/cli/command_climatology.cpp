@@ -3,12 +3,12 @@
 // Under mpirun (built with MPI) the ranks share the time steps; rank 0 writes.
 #include <chrono>
 #include <cstdio>
-#include <ctime>
 #include <memory>
 #include <string>
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "io/netcdf_util.hpp"
 #include "latentlift/climatology.hpp"
 #include "latentlift/comm.hpp"
 #include "latentlift/errors.hpp"
@@ -26,15 +26,6 @@ struct ClimatologyArgs {
   bool update = false, quiet = false, level_fields = false;
 };
 
-std::string utc_now() {
-  std::time_t now = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&now, &tm);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return text;
-}
-
 int run(const ClimatologyArgs& args) {
   climatology::ClimatologyOptions options;
   options.inputs = args.inputs;
@@ -47,7 +38,7 @@ int run(const ClimatologyArgs& args) {
   options.config_path = args.config;
   options.overrides = args.sets;
   options.level_fields = args.level_fields;
-  std::string words = utc_now() + " latentlift climatology";
+  std::string words = io::detail::utc_timestamp() + " latentlift climatology";
   for (const auto& in : args.inputs) words += " " + in;
   words += " -o " + args.output;
   if (!args.group.empty()) words += " --group " + args.group;

@@ -3,7 +3,6 @@
 
 #include <chrono>
 #include <cmath>
-#include <ctime>
 #include <filesystem>
 #include <map>
 #include <set>
@@ -25,13 +24,6 @@ ResampleMethod parse_resample_method(const std::string& text) {
 namespace {
 
 using namespace detail;
-
-std::string utc_now() {
-  std::time_t now = std::time(nullptr);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&now));
-  return text;
-}
 
 std::string format_number(double v) {
   char text[32];
@@ -127,7 +119,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);
     write_text(out, NC_GLOBAL, "Conventions", "CF-1.8");
     std::string method_text = options.method == ResampleMethod::nearest ? "nearest" : options.method == ResampleMethod::bilinear ? "bilinear" : "automatic";
-    std::string history = utc_now() + " latentlift reproject " + input + " -o " + output + " --crs " + options.crs +
+    std::string history = io::detail::utc_timestamp() + " latentlift reproject " + input + " -o " + output + " --crs " + options.crs +
                           " --resolution " + format_number(options.resolution) + " --method " + method_text;
     if (auto old = text_attribute(in, NC_GLOBAL, "history")) history += "\n" + *old;
     write_text(out, NC_GLOBAL, "history", history);

@@ -2,12 +2,22 @@
 
 #include <netcdf.h>
 
+#include <ctime>
 #include <filesystem>
 #include <utility>
 
 #include "latentlift/errors.hpp"
 
 namespace latentlift::io::detail {
+
+std::string utc_timestamp() {
+  const std::time_t now = std::time(nullptr);
+  std::tm tm{};
+  gmtime_r(&now, &tm);  // reentrant: analyses run on several threads
+  char text[32];
+  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return text;
+}
 
 std::mutex& netcdf_mutex() {
   static std::mutex mutex;

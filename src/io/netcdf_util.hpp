@@ -58,6 +58,8 @@ bool has_attribute(int ncid, int varid, const char* name);
 std::string text_attribute(int ncid, int varid, const char* name);
 /// Numeric attribute values as double (empty when absent or text).
 std::vector<double> number_attribute(int ncid, int varid, const char* name);
+/// The current UTC time as ISO 8601 (YYYY-MM-DDThh:mm:ssZ), for CF history attributes.
+std::string utc_timestamp();
 /// All values of a variable as double (no unpacking).
 std::vector<double> read_all_doubles(int ncid, int varid, const std::string& file);
 

@@ -4,7 +4,6 @@
 #include <cmath>
 #include <cstring>
 #include <cstdio>
-#include <ctime>
 #include <filesystem>
 #include <variant>
 
@@ -107,13 +106,6 @@ void copy_attributes(int in, int in_var, int out, int out_var, const std::string
     if (skipped) continue;
     d::check(nc_copy_att(in, in_var, name, out, out_var), file, std::string("copying attribute ") + name);
   }
-}
-
-std::string utc_now() {
-  std::time_t now = std::time(nullptr);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&now));
-  return text;
 }
 
 }  // namespace
@@ -350,7 +342,7 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   put_text(out, NC_GLOBAL, "Conventions", "CF-1.8", path);
   put_text(out, NC_GLOBAL, "title", "Latent instability diagnostics (Normand's method) of every grid column", path);
   put_text(out, NC_GLOBAL, "source", std::string("latentlift ") + LATENTLIFT_VERSION, path);
-  std::string history = utc_now() + " " + options.history;
+  std::string history = d::utc_timestamp() + " " + options.history;
   std::string old_history = d::text_attribute(grid_file.id(), NC_GLOBAL, "history");
   if (!old_history.empty()) history += "\n" + old_history;
   put_text(out, NC_GLOBAL, "history", history, path);
