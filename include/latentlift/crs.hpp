@@ -8,7 +8,7 @@
 #include <variant>
 #include <vector>
 
-namespace latentlift::gis {
+namespace latentlift::geo {
 
 /// One attribute of a grid_mapping variable: text or numbers (CF 1.8 sec. 5.6).
 struct Attribute {
@@ -97,4 +97,4 @@ LatLonGrid latlon_of_projected(const AttributeList& attributes, const std::vecto
                                const std::vector<double>& y, const std::string& file = "",
                                const std::string& variable = "");
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::geo

@@ -6,7 +6,7 @@
 #include <optional>
 #include <string>
 
-namespace latentlift::gis {
+namespace latentlift::maps {
 
 struct QuicklookOptions {
   std::string field;                         // variable name, e.g. mu_cape
@@ -32,4 +32,4 @@ struct QuicklookSummary {
 /// curvilinear) are drawn on a lon/lat grid by nearest cell.
 QuicklookSummary quicklook_file(const std::string& input, const std::string& png_path, const QuicklookOptions& options);
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::maps

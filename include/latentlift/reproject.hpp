@@ -6,7 +6,7 @@
 #include <optional>
 #include <string>
 
-namespace latentlift::gis {
+namespace latentlift::maps {
 
 /// automatic: bilinear for continuous fields, nearest cell for classes/flags (and for unstructured grids).
 enum class ResampleMethod { automatic, nearest, bilinear };
@@ -31,4 +31,4 @@ struct ReprojectSummary {
 /// Missing where a target cell lies outside the source grid or a needed source neighbour is missing.
 ReprojectSummary reproject_file(const std::string& input, const std::string& output, const ReprojectOptions& options);
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::maps

@@ -18,7 +18,7 @@ struct QuicklookArgs {
 };
 
 int run_quicklook(const QuicklookArgs& args) {
-  gis::QuicklookOptions options;
+  maps::QuicklookOptions options;
   options.field = args.field;
   options.time_index = args.time_index;
   options.level_index = args.level_index;
@@ -29,7 +29,7 @@ int run_quicklook(const QuicklookArgs& args) {
       throw UsageError("--range needs MIN,MAX with MIN < MAX, not '" + args.range + "'");
     options.range = std::array<double, 2>{low, high};
   }
-  gis::QuicklookSummary s = gis::quicklook_file(args.input, args.output, options);
+  maps::QuicklookSummary s = maps::quicklook_file(args.input, args.output, options);
   if (!args.quiet) {
     std::printf("quicklook: wrote %s (%d x %d px), %s, valid %s\n", args.output.c_str(), s.width, s.height,
                 args.field.c_str(), s.valid_time.c_str());

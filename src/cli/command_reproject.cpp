@@ -40,13 +40,13 @@ std::array<double, 4> parse_bbox(const std::string& text) {
 }
 
 int run_reproject(const ReprojectArgs& args) {
-  gis::ReprojectOptions options;
+  maps::ReprojectOptions options;
   options.crs = args.crs;
   options.resolution = args.resolution;
   if (!args.bbox.empty()) options.bbox = parse_bbox(args.bbox);
-  if (!args.method.empty()) options.method = gis::parse_resample_method(args.method);
+  if (!args.method.empty()) options.method = maps::parse_resample_method(args.method);
   options.overwrite = args.overwrite;
-  gis::ReprojectSummary summary = gis::reproject_file(args.input, args.output, options);
+  maps::ReprojectSummary summary = maps::reproject_file(args.input, args.output, options);
   if (!args.quiet)
     std::printf("reproject: wrote %s: %zu fields on %zu x %zu cells in %s, extent W %.10g S %.10g E %.10g N %.10g\n",
                 args.output.c_str(), summary.fields, summary.nx, summary.ny, summary.crs_name.c_str(), summary.bbox[0],

@@ -881,7 +881,7 @@ void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<doub
       d::coordinate_var(file.id(), grid.horizontal[1].name) >= 0) {
     // No 2-D lat/lon in the file: derive them from the grid mapping and the 1-D x/y (PROJ).
     const int mapping = d::find_var(file.id(), grid.grid_mapping);
-    gis::AttributeList attributes;
+    geo::AttributeList attributes;
     int natts = 0;
     nc_inq_varnatts(file.id(), mapping, &natts);
     for (int a = 0; a < natts; ++a) {
@@ -901,7 +901,7 @@ void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<doub
       std::string units = d::text_attribute(file.id(), var, "units");
       if (!units.empty() && d::convertible(units, "m")) d::UnitConverter(units, "m").convert(values->data(), values->size());
     }
-    gis::LatLonGrid latlon = gis::latlon_of_projected(attributes, x, y, file.path(), grid.grid_mapping);
+    geo::LatLonGrid latlon = geo::latlon_of_projected(attributes, x, y, file.path(), grid.grid_mapping);
     lat_deg = latlon.latitude_deg;
     lon_deg = latlon.longitude_deg;
     return;

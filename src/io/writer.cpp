@@ -7,7 +7,7 @@
 #include <filesystem>
 #include <variant>
 
-#include "gis/netcdf_crs.hpp"  // grid_mapping completion
+#include "io/netcdf_crs.hpp"  // grid_mapping completion
 #include "io/dataset_impl.hpp"
 #include "io/temporary_output.hpp"
 #include "latentlift/crs.hpp"
@@ -129,14 +129,14 @@ const std::vector<std::string>& byte_level_field_names() {
 
 void write_grid_mapping(int ncid_in, int ncid_out, const std::string& grid_mapping_name,
                         const std::string& input_file) {
-  // Copied verbatim, then completed by the gis module (crs_wkt and CF parameters from PROJ).
+  // Copied verbatim, then completed by geo::complete_grid_mapping (crs_wkt and CF parameters from PROJ).
   int in_var = d::find_var(ncid_in, grid_mapping_name);
   if (in_var < 0) throw InputError(input_file, grid_mapping_name, "the grid_mapping variable named by the data");
   int out_var = -1;
   d::check(nc_def_var(ncid_out, grid_mapping_name.c_str(), NC_INT, 0, nullptr, &out_var), input_file,
            "defining " + grid_mapping_name);
   copy_attributes(ncid_in, in_var, ncid_out, out_var, input_file, {"_FillValue"});
-  gis::complete_grid_mapping_variable(ncid_in, in_var, ncid_out, out_var, input_file, grid_mapping_name);
+  d::complete_grid_mapping_variable(ncid_in, in_var, ncid_out, out_var, input_file, grid_mapping_name);
 }
 
 namespace {
@@ -146,7 +146,7 @@ namespace {
 void write_latlon_grid_mapping(int ncid_out, const std::string& name, const std::string& file) {
   int var = -1;
   d::check(nc_def_var(ncid_out, name.c_str(), NC_INT, 0, nullptr, &var), file, "defining " + name);
-  for (const gis::Attribute& attribute : gis::Crs::wgs84().grid_mapping()) {
+  for (const geo::Attribute& attribute : geo::Crs::wgs84().grid_mapping()) {
     if (const auto* text = std::get_if<std::string>(&attribute.value)) {
       put_text(ncid_out, var, attribute.name.c_str(), *text, file);
     } else {
@@ -262,13 +262,13 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   std::string coordinates;
   for (const std::string& coord : src.aux_coordinates)
     if (d::find_var(out, coord) >= 0) coordinates += (coordinates.empty() ? "" : " ") + coord;
-  // A projected grid without 2-D latitude/longitude gets them, computed by the gis module (PROJ).
-  gis::LatLonVariableIds added_latlon;
+  // A projected grid without 2-D latitude/longitude gets them, computed with geo (PROJ).
+  d::LatLonVariableIds added_latlon;
   const bool add_latlon = grid.kind == HorizontalKind::projected && coordinates.empty() && !grid.grid_mapping.empty() &&
                           !src.horizontal_coordinates[0].empty() && !src.horizontal_coordinates[1].empty() &&
                           d::find_var(out, "lat") < 0 && d::find_var(out, "lon") < 0;
   if (add_latlon) {
-    added_latlon = gis::define_latlon_variables(out, grid.horizontal[0].name, grid.horizontal[1].name, path);
+    added_latlon = d::define_latlon_variables(out, grid.horizontal[0].name, grid.horizontal[1].name, path);
     coordinates = "lat lon";
   }
 
@@ -368,7 +368,7 @@ void OutputWriter::Impl::define(const InputDataset& in) {
     d::check(nc_put_var(out, c.out_var, buffer.data()), path, "writing " + c.name);
   }
   if (add_latlon)
-    gis::write_latlon_variables(grid_file.id(), src.horizontal_coordinates[1], src.horizontal_coordinates[0],
+    d::write_latlon_variables(grid_file.id(), src.horizontal_coordinates[1], src.horizontal_coordinates[0],
                                 grid.grid_mapping, out, added_latlon, grid_file.path());
   if (time_var >= 0) {
     std::vector<double> times;

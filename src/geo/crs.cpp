@@ -6,10 +6,10 @@
 #include <cstdio>
 #include <optional>
 
-#include "gis/proj_handles.hpp"
+#include "geo/proj_handles.hpp"
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis {
+namespace latentlift::geo {
 
 using detail::ContextPtr;
 using detail::PjPtr;
@@ -608,4 +608,4 @@ LatLonGrid latlon_of_projected(const AttributeList& attributes, const std::vecto
   return grid;
 }
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::geo

@@ -6,9 +6,9 @@
 #include <array>
 #include <vector>
 
-#include "gis/png_image.hpp"
+#include "maps/png_image.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 /// The sequential scale at t in [0, 1]. Design path u in [0, 1]: CIELAB L* = 20 + 72 u, hue 290 - 190 u
 /// degrees, chroma 24 rising to 74 in the light half, inside sRGB (CIE 1976 L*a*b*, D65; sRGB per
@@ -34,4 +34,4 @@ struct ColourBins {
 /// Round bins covering [min, max] with at most max_bins bins (steps 1, 2, 2.5 or 5 times a power of ten).
 ColourBins nice_bins(double min, double max, int max_bins = 16);
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -7,17 +7,17 @@
 #include <fstream>
 #include <string>
 
-#include "gis/netcdf_crs.hpp"
-#include "gis/netcdf_file.hpp"
-#include "gis_test_helpers.hpp"
+#include "io/netcdf_crs.hpp"
+#include "io/netcdf_file.hpp"
+#include "support/grid_test_helpers.hpp"
 #include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::test {
 namespace {
 
-using gis::AttributeList;
-using gis::Crs;
+using geo::AttributeList;
+using geo::Crs;
 
 constexpr double kPi = 3.14159265358979323846;
 constexpr double kMetresPerDegree = 6371000.0 * kPi / 180.0;  // for comparing positions in metres
@@ -28,11 +28,11 @@ struct NativeGrid {
 };
 
 NativeGrid read_native_grid(const std::string& path, const std::string& xname, const std::string& yname) {
-  auto file = gis::detail::NcFile::open_read(path);
+  auto file = io::detail::NcFile::open_read(path);
   NativeGrid grid;
-  grid.mapping = gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id);
-  grid.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
-  grid.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
+  grid.mapping = io::detail::read_attributes(file, io::detail::find_variable(file, "crs")->id);
+  grid.x = io::detail::read_doubles(file, *io::detail::find_variable(file, xname));
+  grid.y = io::detail::read_doubles(file, *io::detail::find_variable(file, yname));
   return grid;
 }
 
@@ -52,7 +52,7 @@ void expect_latlon_agrees_with_cs2cs(const std::string& mapping, const std::stri
   std::string dir = scratch_dir(std::string("gis_crs_") + ::testing::UnitTest::GetInstance()->current_test_info()->name());
   std::string path = make_cf_grid(dir, mapping, extra);
   NativeGrid grid = read_native_grid(path, xname, yname);
-  gis::LatLonGrid ours = gis::latlon_of_projected(grid.mapping, grid.x, grid.y, path, "crs");
+  geo::LatLonGrid ours = geo::latlon_of_projected(grid.mapping, grid.x, grid.y, path, "crs");
 
   auto srs = run_command("gdalsrsinfo -o proj4 NETCDF:" + path + ":mu_cape");
   ASSERT_EQ(srs.exit_code, 0) << srs.output;
@@ -129,7 +129,7 @@ TEST(CfGridMapping, CrsWktAloneMatchesCs2csWithin1mm) {
   std::string text = wkt.output.substr(0, wkt.output.find('\n'));
   AttributeList mapping = {{"crs_wkt", text}};
   std::vector<double> x = {300000.0, 500000.0, 712345.678}, y = {4000000.0, 5555555.5};
-  auto ours = gis::latlon_of_projected(mapping, x, y);
+  auto ours = geo::latlon_of_projected(mapping, x, y);
   std::string dir = scratch_dir("gis_crs_wkt_alone");
   std::ofstream points(dir + "/points.txt");
   points.precision(17);
@@ -159,7 +159,7 @@ void expect_completed_mapping_reads_as_the_same_crs(const std::string& mapping, 
   ASSERT_EQ(nc_open(completed.c_str(), NC_WRITE, &ncid), NC_NOERR);
   ASSERT_EQ(nc_redef(ncid), NC_NOERR);
   ASSERT_EQ(nc_inq_varid(ncid, "crs", &varid), NC_NOERR);
-  gis::complete_grid_mapping_variable(ncid, varid, ncid, varid, completed, "crs");
+  io::detail::complete_grid_mapping_variable(ncid, varid, ncid, varid, completed, "crs");
   ASSERT_EQ(nc_close(ncid), NC_NOERR);
 
   auto proj_of = [](const std::string& path) {
@@ -224,7 +224,7 @@ TEST(CfGridMapping, MissingParameterIsAnInputErrorNamingIt) {
 TEST(CfGridMapping, CrsWktContradictingTheParametersIsAnInputError) {
   AttributeList mapping = lcc();
   AttributeList other = lcc();
-  gis::set_attribute(other, "longitude_of_central_meridian", std::vector<double>{12.0});
+  geo::set_attribute(other, "longitude_of_central_meridian", std::vector<double>{12.0});
   mapping.push_back({"crs_wkt", Crs::from_grid_mapping(other, "in.nc", "crs").wkt()});
   EXPECT_THROW(Crs::from_grid_mapping(mapping, "in.nc", "crs"), InputError);
 }
@@ -259,23 +259,23 @@ TEST(CfGridMapping, ContradictoryEarthFigureIsAnInputError) {
 }
 
 TEST(CfGridMapping, CompletedMappingKeepsTheInputAndAddsCrsWkt) {
-  AttributeList completed = gis::complete_grid_mapping(lcc(), "in.nc", "crs");
-  for (const auto& attribute : lcc()) EXPECT_NE(gis::find_attribute(completed, attribute.name), nullptr);
-  const auto* wkt = gis::find_attribute(completed, "crs_wkt");
+  AttributeList completed = geo::complete_grid_mapping(lcc(), "in.nc", "crs");
+  for (const auto& attribute : lcc()) EXPECT_NE(geo::find_attribute(completed, attribute.name), nullptr);
+  const auto* wkt = geo::find_attribute(completed, "crs_wkt");
   ASSERT_NE(wkt, nullptr);
   EXPECT_NE(std::get<std::string>(wkt->value).find("Lambert Conic Conformal"), std::string::npos);
 }
 
 TEST(CfGridMapping, CrsWktAloneIsCompletedWithCfParameters) {
-  AttributeList completed = gis::complete_grid_mapping({{"crs_wkt", Crs::from_user_text("EPSG:32633").wkt()}},
+  AttributeList completed = geo::complete_grid_mapping({{"crs_wkt", Crs::from_user_text("EPSG:32633").wkt()}},
                                                        "in.nc", "crs");
-  const auto* name = gis::find_attribute(completed, "grid_mapping_name");
+  const auto* name = geo::find_attribute(completed, "grid_mapping_name");
   ASSERT_NE(name, nullptr);
   EXPECT_EQ(std::get<std::string>(name->value), "transverse_mercator");
   // UTM zone 33: central meridian 15 E, scale 0.9996, false easting 500 km (EPSG dataset).
-  EXPECT_DOUBLE_EQ(std::get<std::vector<double>>(gis::find_attribute(completed, "longitude_of_central_meridian")->value)[0], 15.0);
-  EXPECT_DOUBLE_EQ(std::get<std::vector<double>>(gis::find_attribute(completed, "scale_factor_at_central_meridian")->value)[0], 0.9996);
-  EXPECT_DOUBLE_EQ(std::get<std::vector<double>>(gis::find_attribute(completed, "false_easting")->value)[0], 500000.0);
+  EXPECT_DOUBLE_EQ(std::get<std::vector<double>>(geo::find_attribute(completed, "longitude_of_central_meridian")->value)[0], 15.0);
+  EXPECT_DOUBLE_EQ(std::get<std::vector<double>>(geo::find_attribute(completed, "scale_factor_at_central_meridian")->value)[0], 0.9996);
+  EXPECT_DOUBLE_EQ(std::get<std::vector<double>>(geo::find_attribute(completed, "false_easting")->value)[0], 500000.0);
 }
 
 TEST(CfGridMapping, UserCrsTextIsReadByProj) {
@@ -285,7 +285,7 @@ TEST(CfGridMapping, UserCrsTextIsReadByProj) {
 }
 
 TEST(Transformer, RoundTripIsExact) {
-  gis::Transformer t(Crs::wgs84(), Crs::from_user_text("EPSG:3857"));
+  geo::Transformer t(Crs::wgs84(), Crs::from_user_text("EPSG:3857"));
   double x = 12.5, y = 47.25;
   t.forward(&x, &y, 1);
   t.inverse(&x, &y, 1);

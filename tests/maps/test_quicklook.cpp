@@ -8,17 +8,17 @@
 #include <regex>
 #include <string>
 
-#include "gis/colour_scale.hpp"
-#include "gis/netcdf_file.hpp"
-#include "gis/png_image.hpp"
-#include "gis_test_helpers.hpp"
+#include "maps/colour_scale.hpp"
+#include "io/netcdf_file.hpp"
+#include "maps/png_image.hpp"
+#include "support/grid_test_helpers.hpp"
 
 namespace latentlift::test {
 namespace {
 
 namespace fs = std::filesystem;
-using gis::detail::NcFile;
-using gis::detail::Rgb;
+using io::detail::NcFile;
+using maps::detail::Rgb;
 
 struct Drawn {
   CommandResult result;
@@ -69,11 +69,11 @@ struct Grid {
 Grid read_grid(const std::string& path, const std::string& field, const std::string& xname, const std::string& yname) {
   NcFile file = NcFile::open_read(path);
   Grid g;
-  g.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
-  g.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
-  auto var = *gis::detail::find_variable(file, field);
-  g.values = gis::detail::read_doubles(file, var);
-  g.fill = gis::detail::number_attribute(file, var.id, "_FillValue")->front();
+  g.x = io::detail::read_doubles(file, *io::detail::find_variable(file, xname));
+  g.y = io::detail::read_doubles(file, *io::detail::find_variable(file, yname));
+  auto var = *io::detail::find_variable(file, field);
+  g.values = io::detail::read_doubles(file, var);
+  g.fill = io::detail::number_attribute(file, var.id, "_FillValue")->front();
   return g;
 }
 
@@ -81,7 +81,7 @@ TEST(Quicklook, PngDecodesWithTheStatedSize) {
   std::string dir = scratch_dir("gis_quicklook_size");
   std::string in = make_cf_grid(dir, "lambert_conformal_conic");
   Drawn d = quicklook(in, dir + "/map.png", "--field mu_cape");
-  gis::detail::RgbImage image = gis::detail::read_png(dir + "/map.png");
+  maps::detail::RgbImage image = maps::detail::read_png(dir + "/map.png");
   EXPECT_GT(d.width, 0);
   EXPECT_EQ(image.width, d.width);
   EXPECT_EQ(image.height, d.height);
@@ -92,10 +92,10 @@ TEST(Quicklook, ColoursMapBackToTheFieldWithinOneColourStep) {
   std::string in = make_cf_grid(dir, "none");  // regular lat/lon, EPSG:4326
   Drawn d = quicklook(in, dir + "/map.png", "--field mu_cape --time 1");
   ASSERT_GT(d.bins, 1) << d.result.output;
-  auto image = gis::detail::read_png(dir + "/map.png");
+  auto image = maps::detail::read_png(dir + "/map.png");
   WorldFile world = read_world_file(dir + "/map.pgw");
   Grid g = read_grid(in, "mu_cape", "lon", "lat");
-  std::vector<Rgb> steps = gis::detail::sequential_steps(d.bins);
+  std::vector<Rgb> steps = maps::detail::sequential_steps(d.bins);
   std::size_t plane = g.x.size() * g.y.size();
   for (std::size_t j = 0; j < g.y.size(); ++j)
     for (std::size_t i = 0; i < g.x.size(); ++i) {
@@ -113,10 +113,10 @@ TEST(Quicklook, MissingCellsAreGreyAndOffTheScale) {
   std::string dir = scratch_dir("gis_quicklook_missing");
   std::string in = make_cf_grid(dir, "none");
   Drawn d = quicklook(in, dir + "/map.png", "--field latent_layer_depth");
-  auto image = gis::detail::read_png(dir + "/map.png");
+  auto image = maps::detail::read_png(dir + "/map.png");
   WorldFile world = read_world_file(dir + "/map.pgw");
   Grid g = read_grid(in, "latent_layer_depth", "lon", "lat");
-  std::vector<Rgb> steps = gis::detail::sequential_steps(d.bins);
+  std::vector<Rgb> steps = maps::detail::sequential_steps(d.bins);
   for (std::size_t j = 0; j < 4; ++j)
     for (std::size_t i = 0; i < 4; ++i) {
       bool missing = g.values[j * g.x.size() + i] == g.fill;
@@ -136,14 +136,14 @@ TEST(Quicklook, ClassFieldUsesTheCategoricalColoursOfItsFlagValues) {
   std::string in = make_cf_grid(dir, "none");
   Drawn d = quicklook(in, dir + "/map.png", "--field latent_class");
   EXPECT_EQ(d.bins, 0) << "a class field has a legend, not a colour bar";
-  auto image = gis::detail::read_png(dir + "/map.png");
+  auto image = maps::detail::read_png(dir + "/map.png");
   WorldFile world = read_world_file(dir + "/map.pgw");
   Grid g = read_grid(in, "latent_class", "lon", "lat");
   for (std::size_t j = 0; j < g.y.size(); ++j)
     for (std::size_t i = 0; i < g.x.size(); ++i) {
       int value = static_cast<int>(g.values[j * g.x.size() + i]);  // flag_values 0, 1, 2: index = value
       auto [col, row] = world.pixel(g.x[i], g.y[j]);
-      EXPECT_EQ(image.get(col, row), gis::detail::category_colour(value)) << i << "," << j;
+      EXPECT_EQ(image.get(col, row), maps::detail::category_colour(value)) << i << "," << j;
     }
 }
 
@@ -203,21 +203,21 @@ TEST(ColourScale, LightnessRisesFromDarkToLight) {
   // The design: CIELAB L* from 20 to 92, strictly rising (a sequential scale reads dark = low).
   double previous = -1;
   for (int k = 0; k <= 100; ++k) {
-    double lightness = gis::detail::srgb_to_lab(gis::detail::sequential_colour(k / 100.0))[0];
+    double lightness = maps::detail::srgb_to_lab(maps::detail::sequential_colour(k / 100.0))[0];
     EXPECT_GT(lightness, previous) << k;
     previous = lightness;
   }
-  EXPECT_NEAR(gis::detail::srgb_to_lab(gis::detail::sequential_colour(0.0))[0], 20.0, 1.0);
-  EXPECT_NEAR(gis::detail::srgb_to_lab(gis::detail::sequential_colour(1.0))[0], 92.0, 1.0);
+  EXPECT_NEAR(maps::detail::srgb_to_lab(maps::detail::sequential_colour(0.0))[0], 20.0, 1.0);
+  EXPECT_NEAR(maps::detail::srgb_to_lab(maps::detail::sequential_colour(1.0))[0], 92.0, 1.0);
 }
 
 TEST(ColourScale, AdjacentStepsDifferByEqualPerceivedAmounts) {
   // CIE 1976 colour difference between neighbouring bins of a 16-step bar: equal up to rounding
   // (8-bit sRGB rounding moves each colour by up to about 0.5 units, so a difference by up to 1).
-  std::vector<Rgb> steps = gis::detail::sequential_steps(16);
+  std::vector<Rgb> steps = maps::detail::sequential_steps(16);
   double smallest = 1e9, largest = 0;
   for (std::size_t k = 1; k < steps.size(); ++k) {
-    auto a = gis::detail::srgb_to_lab(steps[k - 1]), b = gis::detail::srgb_to_lab(steps[k]);
+    auto a = maps::detail::srgb_to_lab(steps[k - 1]), b = maps::detail::srgb_to_lab(steps[k]);
     double delta_e = std::sqrt((a[0] - b[0]) * (a[0] - b[0]) + (a[1] - b[1]) * (a[1] - b[1]) + (a[2] - b[2]) * (a[2] - b[2]));
     smallest = std::min(smallest, delta_e);
     largest = std::max(largest, delta_e);
@@ -227,7 +227,7 @@ TEST(ColourScale, AdjacentStepsDifferByEqualPerceivedAmounts) {
 }
 
 TEST(ColourScale, NiceBinsCoverTheRangeWithRoundEdges) {
-  auto bins = gis::detail::nice_bins(503.2, 1496.7);
+  auto bins = maps::detail::nice_bins(503.2, 1496.7);
   EXPECT_LE(bins.low, 503.2);
   EXPECT_GE(bins.high(), 1496.7);
   EXPECT_LE(bins.count, 16);

@@ -4,13 +4,13 @@
 #include <cmath>
 #include <random>
 
-#include "gis/spatial_index.hpp"
+#include "maps/spatial_index.hpp"
 
 namespace latentlift::test {
 namespace {
 
-using gis::detail::SphereIndex;
-using gis::detail::unit_vector;
+using maps::detail::SphereIndex;
+using maps::detail::unit_vector;
 
 double chord(double lon1, double lat1, double lon2, double lat2) {
   auto a = unit_vector(lon1, lat1), b = unit_vector(lon2, lat2);

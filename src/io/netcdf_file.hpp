@@ -1,5 +1,5 @@
-// Internal: a small RAII layer over netCDF-C for the gis module (reading analyze and
-// reproject outputs, writing map grids). No physics.
+// Internal: variable descriptions, attributes, hyperslabs and CF unpacking over netCDF-C,
+// for reading analyze/climatology outputs and writing map grids (maps, stats). No physics.
 #pragma once
 
 #include <netcdf.h>
@@ -13,13 +13,13 @@
 #include "io/netcdf_util.hpp"
 #include "latentlift/crs.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::io::detail {
+
+using geo::Attribute;
+using geo::AttributeList;
 
 /// Throws latentlift::Error naming the file, variable and action when status is not NC_NOERR.
 void check(int status, const std::string& file, const std::string& variable, const std::string& action);
-
-/// An open NetCDF dataset: the one RAII owner of netCDF ids (src/io/netcdf_util.hpp).
-using NcFile = io::detail::NcFile;
 
 struct VarInfo {
   int id = -1;
@@ -61,4 +61,4 @@ struct Unpacking {
 };
 Unpacking unpacking_of(const NcFile& file, const VarInfo& var);
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::io::detail

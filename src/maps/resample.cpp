@@ -1,14 +1,14 @@
 // Regular target grids and nearest/bilinear resampling plans.
-#include "gis/resample.hpp"
+#include "maps/resample.hpp"
 
 #include <algorithm>
 #include <cmath>
 #include <limits>
 
-#include "gis/spatial_index.hpp"
+#include "maps/spatial_index.hpp"
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 namespace {
 
@@ -94,7 +94,7 @@ struct Axis1D {
 
 }  // namespace
 
-TargetGrid make_target_grid(const SourceGrid& source, const Crs& crs, double resolution,
+TargetGrid make_target_grid(const SourceGrid& source, const geo::Crs& crs, double resolution,
                             const std::optional<std::array<double, 4>>& bbox) {
   if (!(resolution > 0.0) || !std::isfinite(resolution)) throw UsageError("--resolution must be a positive number");
   TargetGrid grid{crs};
@@ -126,7 +126,7 @@ TargetGrid make_target_grid(const SourceGrid& source, const Crs& crs, double res
         ys.push_back(source.lat[i]);
       }
     }
-    Transformer(*source.crs, crs).forward(xs.data(), ys.data(), xs.size());
+    geo::Transformer(*source.crs, crs).forward(xs.data(), ys.data(), xs.size());
     west = south = HUGE_VAL;
     east = north = -HUGE_VAL;
     for (std::size_t i = 0; i < xs.size(); ++i) {
@@ -162,7 +162,7 @@ ResamplePlan::ResamplePlan(const SourceGrid& source, const TargetGrid& target, b
       x[j * target.nx + i] = target.x(i);
       y[j * target.nx + i] = target.y(j);
     }
-  Transformer(target.crs, *source.crs).forward(x.data(), y.data(), n);
+  geo::Transformer(target.crs, *source.crs).forward(x.data(), y.data(), n);
   nearest_.assign(n, -1);
   if (source.kind == SourceGrid::Kind::points) {
     if (with_bilinear)
@@ -218,4 +218,4 @@ void ResamplePlan::bilinear(const std::vector<double>& source, std::vector<doubl
   }
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -1,11 +1,11 @@
 // A k-d tree over unit vectors: nearest source cell of unstructured grids.
-#include "gis/spatial_index.hpp"
+#include "maps/spatial_index.hpp"
 
 #include <algorithm>
 #include <cmath>
 #include <limits>
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 std::array<double, 3> unit_vector(double lon_deg, double lat_deg) {
   constexpr double rad = 3.14159265358979323846 / 180.0;
@@ -77,4 +77,4 @@ double SphereIndex::typical_spacing() const {
   return spacing[spacing.size() / 2];
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -9,7 +9,7 @@
 #include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::geo::detail {
 
 struct ContextDeleter {
   void operator()(PJ_CONTEXT* context) const { proj_context_destroy(context); }
@@ -36,9 +36,9 @@ inline std::string last_error(PJ_CONTEXT* context) {
   return text ? text : "unknown PROJ error";
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::geo::detail
 
-namespace latentlift::gis {
+namespace latentlift::geo {
 
 /// What a Crs holds: PROJ-readable definitions and derived descriptions (no live PROJ objects).
 struct Crs::Impl {
@@ -51,4 +51,4 @@ struct Crs::Impl {
   std::string geodetic_definition;
 };
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::geo

@@ -1,11 +1,11 @@
 // latentlift's own 5x7 glyphs: seven rows of five pixels each ('#' on, '.' off). The letters
 // g, p, q and y are drawn two pixels lower so that their tails hang below the line.
-#include "gis/font.hpp"
+#include "maps/font.hpp"
 
 #include <array>
 #include <cstdint>
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 namespace {
 
@@ -148,4 +148,4 @@ void draw_text(RgbImage& image, int x, int y, const std::string& text, Rgb colou
   }
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -6,16 +6,16 @@
 #include <filesystem>
 #include <string>
 
-#include "gis/netcdf_crs.hpp"
-#include "gis/netcdf_file.hpp"
-#include "gis_test_helpers.hpp"
+#include "io/netcdf_crs.hpp"
+#include "io/netcdf_file.hpp"
+#include "support/grid_test_helpers.hpp"
 #include "latentlift/crs.hpp"
 
 namespace latentlift::test {
 namespace {
 
 namespace fs = std::filesystem;
-using gis::detail::NcFile;
+using io::detail::NcFile;
 
 std::string sample_grid() { return test_dir() + "/../sample_grids/vessaline_coast_lcc.nc"; }
 
@@ -47,13 +47,13 @@ TEST(AnalyzeOutputCrs, GdallocationinfoMatchesTheColumnCommand) {
   auto analyze = run_command(binary() + " analyze " + sample + " -o " + out + " --quiet");
   ASSERT_EQ(analyze.exit_code, 0) << analyze.output;
   NcFile file = NcFile::open_read(out);
-  auto mapping_var = gis::detail::text_attribute(file, gis::detail::find_variable(file, "mu_cape")->id, "grid_mapping");
-  auto mapping = gis::detail::read_attributes(file, gis::detail::find_variable(file, *mapping_var)->id);
+  auto mapping_var = io::detail::text_attribute(file, io::detail::find_variable(file, "mu_cape")->id, "grid_mapping");
+  auto mapping = io::detail::read_attributes(file, io::detail::find_variable(file, *mapping_var)->id);
   Field f = read_field(out, "mu_cape", "x", "y");
   int compared = 0;
   for (auto [i, j] : {std::pair{20, 15}, {40, 33}, {61, 50}, {70, 10}}) {
     // Cell centre in lat/lon (the model's sphere; -wgs84 passes lat/lon through unchanged).
-    auto ll = gis::latlon_of_projected(mapping, {f.x[i]}, {f.y[j]});
+    auto ll = geo::latlon_of_projected(mapping, {f.x[i]}, {f.y[j]});
     char where[96];
     std::snprintf(where, sizeof where, "%.9f %.9f", ll.longitude_deg[0], ll.latitude_deg[0]);
     auto gdal = run_command("gdallocationinfo -valonly -wgs84 NETCDF:" + out + ":mu_cape " + where);
@@ -100,18 +100,18 @@ TEST(AnalyzeOutputCrs, LatLonAddedToAProjectedGridAgreeWithProjAndKeepGdalOnTheG
   int ncid = -1, varid = -1;
   ASSERT_EQ(nc_open(out.c_str(), NC_WRITE, &ncid), NC_NOERR);
   ASSERT_EQ(nc_redef(ncid), NC_NOERR);
-  auto ids = gis::define_latlon_variables(ncid, "y", "x", out);
+  auto ids = io::detail::define_latlon_variables(ncid, "y", "x", out);
   ASSERT_EQ(nc_inq_varid(ncid, "mu_cape", &varid), NC_NOERR);
   ASSERT_EQ(nc_put_att_text(ncid, varid, "coordinates", 7, "lat lon"), NC_NOERR);
   ASSERT_EQ(nc_enddef(ncid), NC_NOERR);
-  gis::write_latlon_variables(ncid, "x", "y", "crs", ncid, ids, out);
+  io::detail::write_latlon_variables(ncid, "x", "y", "crs", ncid, ids, out);
   ASSERT_EQ(nc_close(ncid), NC_NOERR);
 
   Field f = read_field(out, "mu_cape", "x", "y");
   Field lat = read_field(out, "lat", "x", "y"), lon = read_field(out, "lon", "x", "y");
   auto file = NcFile::open_read(out);
-  auto expected = gis::latlon_of_projected(
-      gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id), f.x, f.y);
+  auto expected = geo::latlon_of_projected(
+      io::detail::read_attributes(file, io::detail::find_variable(file, "crs")->id), f.x, f.y);
   for (std::size_t k = 0; k < expected.latitude_deg.size(); ++k) {
     EXPECT_DOUBLE_EQ(lat.values[k], expected.latitude_deg[k]);
     EXPECT_DOUBLE_EQ(lon.values[k], expected.longitude_deg[k]);

@@ -1,10 +1,10 @@
 // Colour scales computed from CIELAB (CIE 1976) and sRGB (IEC 61966-2-1) formulas.
-#include "gis/colour_scale.hpp"
+#include "maps/colour_scale.hpp"
 
 #include <algorithm>
 #include <cmath>
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 namespace {
 
@@ -142,4 +142,4 @@ ColourBins nice_bins(double min, double max, int max_bins) {
   return bins;
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

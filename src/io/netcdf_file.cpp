@@ -1,11 +1,11 @@
 // Internal netCDF-C layer of the gis module.
-#include "gis/netcdf_file.hpp"
+#include "io/netcdf_file.hpp"
 
 #include <cmath>
 
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::io::detail {
 
 void check(int status, const std::string& file, const std::string& variable, const std::string& action) {
   if (status == NC_NOERR) return;
@@ -201,4 +201,4 @@ Unpacking unpacking_of(const NcFile& file, const VarInfo& var) {
   return u;
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::io::detail

@@ -6,14 +6,14 @@
 #include <optional>
 #include <vector>
 
-#include "gis/source_grid.hpp"
+#include "maps/source_grid.hpp"
 #include "latentlift/crs.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 /// A regular grid of nx x ny cells in crs; rows run south to north (ascending y).
 struct TargetGrid {
-  Crs crs;
+  geo::Crs crs;
   double west = 0, south = 0, resolution = 0;
   std::size_t nx = 0, ny = 0;
   double x(std::size_t i) const { return west + (static_cast<double>(i) + 0.5) * resolution; }
@@ -24,7 +24,7 @@ struct TargetGrid {
 
 /// The target grid: bbox (west, south, east, north edges; west and north kept, east/south widened to
 /// whole cells) or, without bbox, the source grid's extent in crs snapped outward to multiples of resolution.
-TargetGrid make_target_grid(const SourceGrid& source, const Crs& crs, double resolution,
+TargetGrid make_target_grid(const SourceGrid& source, const geo::Crs& crs, double resolution,
                             const std::optional<std::array<double, 4>>& bbox);
 
 /// Which source cells feed each target cell.
@@ -44,4 +44,4 @@ class ResamplePlan {
   std::vector<std::array<double, 4>> weights_;
 };
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -7,15 +7,15 @@
 #include <set>
 #include <string>
 
-#include "gis/netcdf_file.hpp"
-#include "gis_test_helpers.hpp"
+#include "io/netcdf_file.hpp"
+#include "support/grid_test_helpers.hpp"
 #include "latentlift/crs.hpp"
 
 namespace latentlift::test {
 namespace {
 
 namespace fs = std::filesystem;
-using gis::detail::NcFile;
+using io::detail::NcFile;
 
 constexpr double kPi = 3.14159265358979323846;
 constexpr double kFloatFill = 9.969209968386869e36;  // NC_FILL_FLOAT (netCDF-C documentation)
@@ -64,9 +64,9 @@ TEST(Reproject, GdallocationinfoReturnsTheSourceValueOfTheNearestCell) {
   reproject(in, out, "--crs EPSG:4326 --resolution 0.2 --bbox 0,44,14,52 --method nearest");
   Field source = read_field(in, "latent_layer_depth", "rlon", "rlat");
   NcFile file = NcFile::open_read(in);
-  auto crs = gis::Crs::from_grid_mapping(
-      gis::detail::read_attributes(file, gis::detail::find_variable(file, "crs")->id), in, "crs");
-  gis::Transformer to_rotated(gis::Crs::wgs84(), crs);
+  auto crs = geo::Crs::from_grid_mapping(
+      io::detail::read_attributes(file, io::detail::find_variable(file, "crs")->id), in, "crs");
+  geo::Transformer to_rotated(geo::Crs::wgs84(), crs);
   int compared = 0;
   for (auto [si, sj] : {std::pair{3, 3}, {10, 8}, {20, 15}, {5, 12}, {16, 4}, {22, 16}}) {
     // A source cell's position, moved to the centre of the target cell holding it.
@@ -211,11 +211,11 @@ TEST(Reproject, ClassesSurviveARoundTripWithOnlyValidClassValues) {
     std::set<double> values = values_of(path, x, y);
     EXPECT_EQ(values, (std::set<double>{0, 1, 2})) << path;
     NcFile file = NcFile::open_read(path);
-    auto var = *gis::detail::find_variable(file, "latent_class");
+    auto var = *io::detail::find_variable(file, "latent_class");
     EXPECT_EQ(var.type, NC_BYTE);
-    EXPECT_EQ(gis::detail::text_attribute(file, var.id, "flag_meanings").value_or(""),
+    EXPECT_EQ(io::detail::text_attribute(file, var.id, "flag_meanings").value_or(""),
               "none pseudo_latent real_latent");
-    EXPECT_EQ(gis::detail::text_attribute(file, var.id, "resampling").value_or(""), "nearest");
+    EXPECT_EQ(io::detail::text_attribute(file, var.id, "resampling").value_or(""), "nearest");
   }
 }
 
@@ -225,7 +225,7 @@ TEST(Reproject, UnstructuredGridUsesTheNearestCellAndIsMissingFarAway) {
   std::string out = dir + "/ll.nc";
   reproject(in, out, "--crs EPSG:4326 --resolution 0.25 --bbox -5,35,17,54");
   NcFile source = NcFile::open_read(in);
-  auto values = gis::detail::read_doubles(source, *gis::detail::find_variable(source, "mu_cape"));
+  auto values = io::detail::read_doubles(source, *io::detail::find_variable(source, "mu_cape"));
   std::set<float> source_values(values.begin(), values.end());
   Field f = read_field(out, "mu_cape", "lon", "lat");
   std::size_t valid = 0;

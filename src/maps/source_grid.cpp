@@ -1,5 +1,5 @@
 // Identify the horizontal grid of a field (CF 1.8 sections 4, 5 and 5.6).
-#include "gis/source_grid.hpp"
+#include "maps/source_grid.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -7,16 +7,16 @@
 
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 namespace {
 
 enum class Axis { none, x_projected, y_projected, x_rotated, y_rotated, longitude, latitude };
 
-Axis axis_of(const NcFile& file, const VarInfo& var) {
-  std::string standard = text_attribute(file, var.id, "standard_name").value_or("");
-  std::string units = text_attribute(file, var.id, "units").value_or("");
-  std::string axis = text_attribute(file, var.id, "axis").value_or("");
+Axis axis_of(const io::detail::NcFile& file, const io::detail::VarInfo& var) {
+  std::string standard = io::detail::text_attribute(file, var.id, "standard_name").value_or("");
+  std::string units = io::detail::text_attribute(file, var.id, "units").value_or("");
+  std::string axis = io::detail::text_attribute(file, var.id, "axis").value_or("");
   if (standard == "projection_x_coordinate") return Axis::x_projected;
   if (standard == "projection_y_coordinate") return Axis::y_projected;
   if (standard == "grid_longitude") return Axis::x_rotated;
@@ -33,8 +33,8 @@ Axis axis_of(const NcFile& file, const VarInfo& var) {
 }
 
 // Metres per unit of a projection coordinate.
-double metres_per_unit(const NcFile& file, const VarInfo& var) {
-  std::string units = text_attribute(file, var.id, "units").value_or("m");
+double metres_per_unit(const io::detail::NcFile& file, const io::detail::VarInfo& var) {
+  std::string units = io::detail::text_attribute(file, var.id, "units").value_or("m");
   if (units == "m" || units == "metre" || units == "metres" || units == "meter" || units == "meters" || units == "1")
     return 1.0;
   if (units == "km" || units == "kilometre" || units == "kilometres" || units == "kilometer" ||
@@ -43,8 +43,8 @@ double metres_per_unit(const NcFile& file, const VarInfo& var) {
   throw InputError(file.path(), var.name, "projection coordinates in m or km, not '" + units + "'");
 }
 
-std::optional<VarInfo> coordinate_variable(const NcFile& file, const std::string& dim) {
-  auto var = find_variable(file, dim);
+std::optional<io::detail::VarInfo> coordinate_variable(const io::detail::NcFile& file, const std::string& dim) {
+  auto var = io::detail::find_variable(file, dim);
   if (var && var->dim_names.size() == 1 && var->dim_names[0] == dim) return var;
   return std::nullopt;
 }
@@ -57,7 +57,7 @@ bool evenly_spaced(const std::vector<double>& c) {
   return step != 0.0;
 }
 
-void require_monotonic(const NcFile& file, const std::string& name, const std::vector<double>& c) {
+void require_monotonic(const io::detail::NcFile& file, const std::string& name, const std::vector<double>& c) {
   bool up = true, down = true;
   for (std::size_t i = 1; i < c.size(); ++i) {
     up = up && c[i] > c[i - 1];
@@ -72,21 +72,21 @@ void require_monotonic(const NcFile& file, const std::string& name, const std::v
 
 bool SourceGrid::regular() const { return kind == Kind::rectilinear && evenly_spaced(x) && evenly_spaced(y); }
 
-SourceGrid grid_of(const NcFile& file, const VarInfo& field) {
+SourceGrid grid_of(const io::detail::NcFile& file, const io::detail::VarInfo& field) {
   SourceGrid grid;
-  if (auto name = text_attribute(file, field.id, "grid_mapping")) {
+  if (auto name = io::detail::text_attribute(file, field.id, "grid_mapping")) {
     // The simple form "crs"; the extended form "crs: x y" names the variable first.
     std::string mapping = *name;
     if (auto colon = mapping.find(':'); colon != std::string::npos) mapping = mapping.substr(0, colon);
     mapping.erase(std::remove_if(mapping.begin(), mapping.end(), ::isspace), mapping.end());
-    auto var = find_variable(file, mapping);
+    auto var = io::detail::find_variable(file, mapping);
     if (!var) throw InputError(file.path(), field.name, "its grid_mapping variable '" + mapping + "' to exist");
     grid.mapping_variable = mapping;
-    grid.mapping = read_attributes(file, var->id);
+    grid.mapping = io::detail::read_attributes(file, var->id);
   }
-  auto mapping_crs = [&]() -> std::optional<Crs> {
+  auto mapping_crs = [&]() -> std::optional<geo::Crs> {
     if (grid.mapping_variable.empty()) return std::nullopt;
-    return Crs::from_grid_mapping(grid.mapping, file.path(), grid.mapping_variable);
+    return geo::Crs::from_grid_mapping(grid.mapping, file.path(), grid.mapping_variable);
   };
 
   const std::size_t n = field.dim_names.size();
@@ -106,8 +106,8 @@ SourceGrid grid_of(const NcFile& file, const VarInfo& field) {
       grid.shape = {field.shape[n - 2], field.shape[n - 1]};
       grid.x_name = xv->name;
       grid.y_name = yv->name;
-      grid.x = read_doubles(file, *xv);
-      grid.y = read_doubles(file, *yv);
+      grid.x = io::detail::read_doubles(file, *xv);
+      grid.y = io::detail::read_doubles(file, *yv);
       require_monotonic(file, xv->name, grid.x);
       require_monotonic(file, yv->name, grid.y);
       grid.crs = mapping_crs();
@@ -126,7 +126,7 @@ SourceGrid grid_of(const NcFile& file, const VarInfo& field) {
         if (!grid.crs || !grid.crs->is_rotated_pole())
           throw InputError(file.path(), field.name, "a rotated_latitude_longitude grid_mapping for grid_longitude/grid_latitude axes");
       } else {
-        if (!grid.crs) grid.crs = Crs::wgs84();  // 1-D lat/lon without a grid_mapping: EPSG:4326
+        if (!grid.crs) grid.crs = geo::Crs::wgs84();  // 1-D lat/lon without a grid_mapping: EPSG:4326
         if (!grid.crs->is_geographic() || grid.crs->is_rotated_pole())
           throw InputError(file.path(), grid.mapping_variable,
                            "a latitude_longitude grid_mapping for longitude/latitude axes, not " + grid.crs->name());
@@ -135,11 +135,11 @@ SourceGrid grid_of(const NcFile& file, const VarInfo& field) {
     }
   }
   // Points: the coordinates attribute names latitude and longitude over the trailing dimension(s).
-  std::string coordinates = text_attribute(file, field.id, "coordinates").value_or("");
+  std::string coordinates = io::detail::text_attribute(file, field.id, "coordinates").value_or("");
   std::istringstream names(coordinates);
-  std::optional<VarInfo> lon, lat;
+  std::optional<io::detail::VarInfo> lon, lat;
   for (std::string name; names >> name;) {
-    auto var = find_variable(file, name);
+    auto var = io::detail::find_variable(file, name);
     if (!var) continue;
     Axis a = axis_of(file, *var);
     if (a == Axis::longitude) lon = var;
@@ -156,14 +156,14 @@ SourceGrid grid_of(const NcFile& file, const VarInfo& field) {
   grid.kind = SourceGrid::Kind::points;
   grid.dims = lon->dim_names;
   grid.shape = lon->shape;
-  grid.lon = read_doubles(file, *lon);
-  grid.lat = read_doubles(file, *lat);
+  grid.lon = io::detail::read_doubles(file, *lon);
+  grid.lat = io::detail::read_doubles(file, *lat);
   auto crs = mapping_crs();
-  grid.crs = crs ? crs->geodetic() : Crs::wgs84();
+  grid.crs = crs ? crs->geodetic() : geo::Crs::wgs84();
   return grid;
 }
 
-bool is_field_on(const NcFile& file, const VarInfo& var, const SourceGrid& grid) {
+bool is_field_on(const io::detail::NcFile& file, const io::detail::VarInfo& var, const SourceGrid& grid) {
   (void)file;
   std::size_t k = grid.dims.size();
   if (var.dim_names.size() < k) return false;
@@ -172,15 +172,15 @@ bool is_field_on(const NcFile& file, const VarInfo& var, const SourceGrid& grid)
   if (var.name == grid.x_name || var.name == grid.y_name) return false;
   if (var.dim_names.size() == 1 && var.dim_names[0] == var.name) return false;  // a coordinate variable
   if (var.name == "lat" || var.name == "lon") {
-    std::string standard = text_attribute(file, var.id, "standard_name").value_or("");
+    std::string standard = io::detail::text_attribute(file, var.id, "standard_name").value_or("");
     if (standard == "latitude" || standard == "longitude") return false;
   }
-  std::string standard = text_attribute(file, var.id, "standard_name").value_or("");
+  std::string standard = io::detail::text_attribute(file, var.id, "standard_name").value_or("");
   if (standard == "latitude" || standard == "longitude") return false;
   return true;
 }
 
-bool is_class_field(const NcFile& file, const VarInfo& var) {
+bool is_class_field(const io::detail::NcFile& file, const io::detail::VarInfo& var) {
   if (var.type == NC_BYTE || var.type == NC_UBYTE) return true;
   nc_type type;
   std::size_t length;
@@ -188,7 +188,7 @@ bool is_class_field(const NcFile& file, const VarInfo& var) {
          nc_inq_att(file.id(), var.id, "flag_masks", &type, &length) == NC_NOERR;
 }
 
-std::vector<double> read_slice(const NcFile& file, const VarInfo& field, const SourceGrid& grid,
+std::vector<double> read_slice(const io::detail::NcFile& file, const io::detail::VarInfo& field, const SourceGrid& grid,
                                const std::vector<std::size_t>& leading_index) {
   std::size_t lead = field.dim_names.size() - grid.dims.size();
   if (leading_index.size() != lead) throw Error("read_slice: wrong number of leading indices");
@@ -198,10 +198,10 @@ std::vector<double> read_slice(const NcFile& file, const VarInfo& field, const S
     count.push_back(grid.shape[k]);
   }
   std::vector<double> values(grid.size());
-  read_slab(file, field, start, count, values.data());
-  Unpacking unpack = unpacking_of(file, field);
+  io::detail::read_slab(file, field, start, count, values.data());
+  io::detail::Unpacking unpack = io::detail::unpacking_of(file, field);
   for (double& v : values) v = unpack(v);
   return values;
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -6,7 +6,7 @@
 #include <string>
 #include <vector>
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 using Rgb = std::array<std::uint8_t, 3>;
 
@@ -33,4 +33,4 @@ void write_png(const std::string& path, const RgbImage& image);
 /// Reads any PNG as 8-bit RGB (alpha dropped, palettes and grey expanded); Error on failure.
 RgbImage read_png(const std::string& path);
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -1,6 +1,6 @@
 // PNG files through libpng. libpng reports errors by longjmp: each call that can fail runs in a
 // function holding only trivially destructible locals, and C++ exceptions are thrown afterwards.
-#include "gis/png_image.hpp"
+#include "maps/png_image.hpp"
 
 #include <png.h>
 
@@ -10,7 +10,7 @@
 
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 RgbImage::RgbImage(int w, int h, Rgb fill) : width(w), height(h), pixels(static_cast<std::size_t>(w) * h * 3) {
   for (std::size_t i = 0; i < pixels.size(); i += 3) {
@@ -125,4 +125,4 @@ RgbImage read_png(const std::string& path) {
   return image;
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

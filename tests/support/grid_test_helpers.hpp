@@ -1,4 +1,4 @@
-// Helpers of the gis tests: test grids written by make_cf_grid.py, reading fields back, gdalinfo.
+// Helpers of the grid tests (geo, io, maps): test grids written by make_cf_grid.py, reading fields back, gdalinfo.
 #pragma once
 
 #include <gtest/gtest.h>
@@ -8,15 +8,15 @@
 #include <string>
 #include <vector>
 
-#include "gis/netcdf_file.hpp"
+#include "io/netcdf_file.hpp"
 #include "support/test_support.hpp"
 
 namespace latentlift::test {
 
-/// Writes a grid laid out like an analyze output (tests/gis/make_cf_grid.py) and returns its path.
+/// Writes a grid laid out like an analyze output (tests/support/make_cf_grid.py) and returns its path.
 inline std::string make_cf_grid(const std::string& dir, const std::string& mapping, const std::string& extra = "") {
   std::string path = dir + "/" + mapping + ".nc";
-  auto result = run_command(python() + " " + test_dir() + "/gis/make_cf_grid.py --mapping " + mapping +
+  auto result = run_command(python() + " " + test_dir() + "/support/make_cf_grid.py --mapping " + mapping +
                             " --out " + path + " " + extra);
   if (result.exit_code != 0) throw std::runtime_error("make_cf_grid.py failed: " + result.output);
   return path;
@@ -46,13 +46,13 @@ struct Field {
 
 inline Field read_field(const std::string& path, const std::string& name, const std::string& xname,
                         const std::string& yname) {
-  auto file = gis::detail::NcFile::open_read(path);
+  auto file = io::detail::NcFile::open_read(path);
   Field f;
-  f.x = gis::detail::read_doubles(file, *gis::detail::find_variable(file, xname));
-  f.y = gis::detail::read_doubles(file, *gis::detail::find_variable(file, yname));
-  auto var = *gis::detail::find_variable(file, name);
-  f.values = gis::detail::read_doubles(file, var);
-  auto fill = gis::detail::number_attribute(file, var.id, "_FillValue");
+  f.x = io::detail::read_doubles(file, *io::detail::find_variable(file, xname));
+  f.y = io::detail::read_doubles(file, *io::detail::find_variable(file, yname));
+  auto var = *io::detail::find_variable(file, name);
+  f.values = io::detail::read_doubles(file, var);
+  auto fill = io::detail::number_attribute(file, var.id, "_FillValue");
   f.fill = fill ? fill->front() : std::nan("");
   return f;
 }

@@ -3,9 +3,9 @@
 
 #include <string>
 
-#include "gis/png_image.hpp"
+#include "maps/png_image.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 constexpr int kGlyphWidth = 5, kGlyphHeight = 7, kGlyphAdvance = 6;
 
@@ -17,4 +17,4 @@ inline int text_width(const std::string& text, int scale = 1) {
   return text.empty() ? 0 : (static_cast<int>(text.size()) * kGlyphAdvance - 1) * scale;
 }
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -7,13 +7,13 @@
 #include <map>
 #include <set>
 
-#include "gis/netcdf_file.hpp"
-#include "gis/resample.hpp"
-#include "gis/source_grid.hpp"
+#include "io/netcdf_file.hpp"
+#include "maps/resample.hpp"
+#include "maps/source_grid.hpp"
 #include "io/temporary_output.hpp"
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis {
+namespace latentlift::maps {
 
 ResampleMethod parse_resample_method(const std::string& text) {
   if (text == "nearest") return ResampleMethod::nearest;
@@ -37,28 +37,28 @@ const std::set<std::string> kNotCopied = {"_FillValue", "missing_value", "scale_
                                           "valid_max", "_ChunkSizes", "_Storage", "_DeflateLevel",
                                           "_Shuffle", "_Endianness", "_NoFill"};
 
-void copy_attributes(const NcFile& from, int from_id, NcFile& to, int to_id, bool skip_grid_attributes) {
+void copy_attributes(const io::detail::NcFile& from, int from_id, io::detail::NcFile& to, int to_id, bool skip_grid_attributes) {
   int count = 0;
   if (from_id == NC_GLOBAL)
-    check(nc_inq_natts(from.id(), &count), from.path(), "", "attributes");
+    io::detail::check(nc_inq_natts(from.id(), &count), from.path(), "", "attributes");
   else
-    check(nc_inq_varnatts(from.id(), from_id, &count), from.path(), "", "attributes");
+    io::detail::check(nc_inq_varnatts(from.id(), from_id, &count), from.path(), "", "attributes");
   for (int i = 0; i < count; ++i) {
     char name[NC_MAX_NAME + 1] = {0};
-    check(nc_inq_attname(from.id(), from_id, i, name), from.path(), "", "attribute name");
+    io::detail::check(nc_inq_attname(from.id(), from_id, i, name), from.path(), "", "attribute name");
     if (skip_grid_attributes && kNotCopied.count(name)) continue;
-    check(nc_copy_att(from.id(), from_id, name, to.id(), to_id), to.path(), "", std::string("copy attribute ") + name);
+    io::detail::check(nc_copy_att(from.id(), from_id, name, to.id(), to_id), to.path(), "", std::string("copy attribute ") + name);
   }
 }
 
-int define_dimension(NcFile& out, const std::string& name, std::size_t length) {
+int define_dimension(io::detail::NcFile& out, const std::string& name, std::size_t length) {
   int id = -1;
-  check(nc_def_dim(out.id(), name.c_str(), length, &id), out.path(), name, "cannot define dimension");
+  io::detail::check(nc_def_dim(out.id(), name.c_str(), length, &id), out.path(), name, "cannot define dimension");
   return id;
 }
 
 struct OutputField {
-  VarInfo source;
+  io::detail::VarInfo source;
   int id = -1;
   bool classes = false;
   bool bilinear = false;
@@ -71,21 +71,21 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   namespace fs = std::filesystem;
   if (fs::exists(output) && !options.overwrite)
     throw UsageError(output + " exists; use --overwrite to replace it");
-  Crs target_crs = Crs::from_user_text(options.crs);
+  geo::Crs target_crs = geo::Crs::from_user_text(options.crs);
   if (target_crs.is_rotated_pole()) throw UsageError("--crs must be a geographic or projected CRS, not a rotated pole");
   if (std::fabs(target_crs.metres_per_unit() - 1.0) > 1e-12)
     throw UsageError("--crs " + options.crs + " measures x/y in units other than metres; choose a metre-based CRS");
 
-  NcFile in = NcFile::open_read(input);
-  auto variables = all_variables(in);
+  io::detail::NcFile in = io::detail::NcFile::open_read(input);
+  auto variables = io::detail::all_variables(in);
   // The grid: from the first variable that has one (fields share the input's horizontal grid).
   std::optional<SourceGrid> grid;
   for (const auto& var : variables) {
     if (var.dim_names.empty() || var.type == NC_CHAR || var.type == NC_STRING) continue;
     bool coordinate = var.dim_names.size() == 1 && var.dim_names[0] == var.name;
     if (coordinate) continue;
-    bool has_mapping = text_attribute(in, var.id, "grid_mapping").has_value();
-    bool has_coordinates = text_attribute(in, var.id, "coordinates").has_value();
+    bool has_mapping = io::detail::text_attribute(in, var.id, "grid_mapping").has_value();
+    bool has_coordinates = io::detail::text_attribute(in, var.id, "coordinates").has_value();
     if (var.dim_names.size() < 2 && !has_coordinates) continue;
     try {
       grid = grid_of(in, var);
@@ -96,7 +96,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   }
   if (!grid) throw InputError(input, "", "at least one 2-D field on a horizontal grid");
 
-  std::vector<VarInfo> fields;
+  std::vector<io::detail::VarInfo> fields;
   for (const auto& var : variables)
     if (is_field_on(in, var, *grid)) fields.push_back(var);
   if (fields.empty()) throw InputError(input, "", "at least one field to reproject");
@@ -115,15 +115,15 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   io::detail::TemporaryOutput staged(output);  // removed unless committed
   ReprojectSummary summary;
   {
-    NcFile out = NcFile::create_netcdf4(staged.path());
+    io::detail::NcFile out = io::detail::NcFile::create_netcdf4(staged.path());
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);
-    write_text(out, NC_GLOBAL, "Conventions", "CF-1.8");
+    io::detail::write_text(out, NC_GLOBAL, "Conventions", "CF-1.8");
     std::string method_text = options.method == ResampleMethod::nearest ? "nearest" : options.method == ResampleMethod::bilinear ? "bilinear" : "automatic";
     std::string history = io::detail::utc_timestamp() + " latentlift reproject " + input + " -o " + output + " --crs " + options.crs +
                           " --resolution " + format_number(options.resolution) + " --method " + method_text;
-    if (auto old = text_attribute(in, NC_GLOBAL, "history")) history += "\n" + *old;
-    write_text(out, NC_GLOBAL, "history", history);
-    write_text(out, NC_GLOBAL, "reprojection",
+    if (auto old = io::detail::text_attribute(in, NC_GLOBAL, "history")) history += "\n" + *old;
+    io::detail::write_text(out, NC_GLOBAL, "history", history);
+    io::detail::write_text(out, NC_GLOBAL, "reprojection",
                "resampled from the input grid onto a regular grid in " + target_crs.name() +
                    " at " + format_number(options.resolution) + " " + (target_crs.is_geographic() ? "degree" : "m") +
                    " cells; classes and flags by nearest cell, continuous fields " +
@@ -134,36 +134,36 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
     std::string yname = geographic ? "lat" : "y", xname = geographic ? "lon" : "x";
     int ydim = define_dimension(out, yname, target.ny), xdim = define_dimension(out, xname, target.nx);
     int xvar, yvar;
-    check(nc_def_var(out.id(), xname.c_str(), NC_DOUBLE, 1, &xdim, &xvar), out.path(), xname, "define");
-    check(nc_def_var(out.id(), yname.c_str(), NC_DOUBLE, 1, &ydim, &yvar), out.path(), yname, "define");
+    io::detail::check(nc_def_var(out.id(), xname.c_str(), NC_DOUBLE, 1, &xdim, &xvar), out.path(), xname, "define");
+    io::detail::check(nc_def_var(out.id(), yname.c_str(), NC_DOUBLE, 1, &ydim, &yvar), out.path(), yname, "define");
     if (geographic) {
-      write_attributes(out, xvar, {{"standard_name", std::string("longitude")}, {"long_name", std::string("longitude")},
+      io::detail::write_attributes(out, xvar, {{"standard_name", std::string("longitude")}, {"long_name", std::string("longitude")},
                                    {"units", std::string("degrees_east")}, {"axis", std::string("X")}});
-      write_attributes(out, yvar, {{"standard_name", std::string("latitude")}, {"long_name", std::string("latitude")},
+      io::detail::write_attributes(out, yvar, {{"standard_name", std::string("latitude")}, {"long_name", std::string("latitude")},
                                    {"units", std::string("degrees_north")}, {"axis", std::string("Y")}});
     } else {
-      write_attributes(out, xvar, {{"standard_name", std::string("projection_x_coordinate")},
+      io::detail::write_attributes(out, xvar, {{"standard_name", std::string("projection_x_coordinate")},
                                    {"long_name", std::string("x coordinate of projection")},
                                    {"units", std::string("m")}, {"axis", std::string("X")}});
-      write_attributes(out, yvar, {{"standard_name", std::string("projection_y_coordinate")},
+      io::detail::write_attributes(out, yvar, {{"standard_name", std::string("projection_y_coordinate")},
                                    {"long_name", std::string("y coordinate of projection")},
                                    {"units", std::string("m")}, {"axis", std::string("Y")}});
     }
     int latvar = -1, lonvar = -1;
     if (!geographic) {  // CF asks for true latitude/longitude beside projection coordinates
       int dims[2] = {ydim, xdim};
-      check(nc_def_var(out.id(), "lat", NC_DOUBLE, 2, dims, &latvar), out.path(), "lat", "define");
-      check(nc_def_var(out.id(), "lon", NC_DOUBLE, 2, dims, &lonvar), out.path(), "lon", "define");
-      write_attributes(out, latvar, {{"standard_name", std::string("latitude")}, {"units", std::string("degrees_north")}});
-      write_attributes(out, lonvar, {{"standard_name", std::string("longitude")}, {"units", std::string("degrees_east")}});
+      io::detail::check(nc_def_var(out.id(), "lat", NC_DOUBLE, 2, dims, &latvar), out.path(), "lat", "define");
+      io::detail::check(nc_def_var(out.id(), "lon", NC_DOUBLE, 2, dims, &lonvar), out.path(), "lon", "define");
+      io::detail::write_attributes(out, latvar, {{"standard_name", std::string("latitude")}, {"units", std::string("degrees_north")}});
+      io::detail::write_attributes(out, lonvar, {{"standard_name", std::string("longitude")}, {"units", std::string("degrees_east")}});
     }
     int crsvar;
-    check(nc_def_var(out.id(), "crs", NC_INT, 0, nullptr, &crsvar), out.path(), "crs", "define");
-    write_attributes(out, crsvar, target_crs.grid_mapping());
+    io::detail::check(nc_def_var(out.id(), "crs", NC_INT, 0, nullptr, &crsvar), out.path(), "crs", "define");
+    io::detail::write_attributes(out, crsvar, target_crs.grid_mapping());
 
     // Leading dimensions (time, levels) and their coordinate variables, as in the input.
     std::map<std::string, int> leading_dims;
-    std::vector<std::pair<VarInfo, int>> leading_coordinates;
+    std::vector<std::pair<io::detail::VarInfo, int>> leading_coordinates;
     for (const auto& field : fields)
       for (std::size_t k = 0; k + grid->dims.size() < field.dim_names.size(); ++k) {
         const std::string& name = field.dim_names[k];
@@ -171,11 +171,11 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
         if (name == xname || name == yname)
           throw InputError(input, field.name, "no dimension named like the output's '" + name + "'");
         leading_dims[name] = define_dimension(out, name, field.shape[k]);
-        if (auto coordinate = find_variable(in, name); coordinate && coordinate->dim_names.size() == 1 &&
+        if (auto coordinate = io::detail::find_variable(in, name); coordinate && coordinate->dim_names.size() == 1 &&
                                                         coordinate->dim_names[0] == name) {
           int id;
           int dim = leading_dims[name];
-          check(nc_def_var(out.id(), name.c_str(), coordinate->type, 1, &dim, &id), out.path(), name, "define");
+          io::detail::check(nc_def_var(out.id(), name.c_str(), coordinate->type, 1, &dim, &id), out.path(), name, "define");
           copy_attributes(in, coordinate->id, out, id, false);
           leading_coordinates.push_back({*coordinate, id});
         }
@@ -193,40 +193,40 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
       dims.push_back(ydim);
       dims.push_back(xdim);
       nc_type type = o.classes ? o.source.type : (o.source.type == NC_DOUBLE ? NC_DOUBLE : NC_FLOAT);
-      check(nc_def_var(out.id(), o.source.name.c_str(), type, static_cast<int>(dims.size()), dims.data(), &o.id),
+      io::detail::check(nc_def_var(out.id(), o.source.name.c_str(), type, static_cast<int>(dims.size()), dims.data(), &o.id),
             out.path(), o.source.name, "define");
       std::vector<std::size_t> chunks(dims.size(), 1);
       chunks[dims.size() - 2] = target.ny;
       chunks[dims.size() - 1] = target.nx;
-      check(nc_def_var_chunking(out.id(), o.id, NC_CHUNKED, chunks.data()), out.path(), o.source.name, "chunking");
-      check(nc_def_var_deflate(out.id(), o.id, 1, 1, 4), out.path(), o.source.name, "compression");
+      io::detail::check(nc_def_var_chunking(out.id(), o.id, NC_CHUNKED, chunks.data()), out.path(), o.source.name, "chunking");
+      io::detail::check(nc_def_var_deflate(out.id(), o.id, 1, 1, 4), out.path(), o.source.name, "compression");
       copy_attributes(in, o.source.id, out, o.id, true);
-      Unpacking unpack = unpacking_of(in, o.source);
+      io::detail::Unpacking unpack = io::detail::unpacking_of(in, o.source);
       if (o.classes) {
-        auto fill = number_attribute(in, o.source.id, "_FillValue");
+        auto fill = io::detail::number_attribute(in, o.source.id, "_FillValue");
         o.fill = fill ? fill->front() : (unpack.missing.empty() ? -127.0 : unpack.missing.front());
       } else {
         o.fill = type == NC_DOUBLE ? NC_FILL_DOUBLE : static_cast<double>(NC_FILL_FLOAT);
       }
       if (type == NC_FLOAT) {
         float fill = static_cast<float>(o.fill);
-        check(nc_put_att_float(out.id(), o.id, "_FillValue", NC_FLOAT, 1, &fill), out.path(), o.source.name, "_FillValue");
+        io::detail::check(nc_put_att_float(out.id(), o.id, "_FillValue", NC_FLOAT, 1, &fill), out.path(), o.source.name, "_FillValue");
       } else {
-        check(nc_put_att_double(out.id(), o.id, "_FillValue", type, 1, &o.fill), out.path(), o.source.name, "_FillValue");
+        io::detail::check(nc_put_att_double(out.id(), o.id, "_FillValue", type, 1, &o.fill), out.path(), o.source.name, "_FillValue");
       }
-      write_text(out, o.id, "grid_mapping", "crs");
-      if (!geographic) write_text(out, o.id, "coordinates", "lat lon");
-      write_text(out, o.id, "resampling", o.bilinear ? "bilinear" : "nearest");
+      io::detail::write_text(out, o.id, "grid_mapping", "crs");
+      if (!geographic) io::detail::write_text(out, o.id, "coordinates", "lat lon");
+      io::detail::write_text(out, o.id, "resampling", o.bilinear ? "bilinear" : "nearest");
       outputs.push_back(o);
     }
-    check(nc_enddef(out.id()), out.path(), "", "end of definitions");
+    io::detail::check(nc_enddef(out.id()), out.path(), "", "end of definitions");
 
     // Coordinates.
     std::vector<double> xs(target.nx), ys(target.ny);
     for (std::size_t i = 0; i < target.nx; ++i) xs[i] = target.x(i);
     for (std::size_t j = 0; j < target.ny; ++j) ys[j] = target.y(j);
-    check(nc_put_var_double(out.id(), xvar, xs.data()), out.path(), xname, "write");
-    check(nc_put_var_double(out.id(), yvar, ys.data()), out.path(), yname, "write");
+    io::detail::check(nc_put_var_double(out.id(), xvar, xs.data()), out.path(), xname, "write");
+    io::detail::check(nc_put_var_double(out.id(), yvar, ys.data()), out.path(), yname, "write");
     if (!geographic) {
       std::vector<double> lon(target.nx * target.ny), lat(lon.size());
       for (std::size_t j = 0; j < target.ny; ++j)
@@ -234,13 +234,13 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
           lon[j * target.nx + i] = xs[i];
           lat[j * target.nx + i] = ys[j];
         }
-      Transformer(target_crs, target_crs.geodetic()).forward(lon.data(), lat.data(), lon.size());
-      check(nc_put_var_double(out.id(), latvar, lat.data()), out.path(), "lat", "write");
-      check(nc_put_var_double(out.id(), lonvar, lon.data()), out.path(), "lon", "write");
+      geo::Transformer(target_crs, target_crs.geodetic()).forward(lon.data(), lat.data(), lon.size());
+      io::detail::check(nc_put_var_double(out.id(), latvar, lat.data()), out.path(), "lat", "write");
+      io::detail::check(nc_put_var_double(out.id(), lonvar, lon.data()), out.path(), "lon", "write");
     }
     for (const auto& [coordinate, id] : leading_coordinates) {
-      std::vector<double> values = read_doubles(in, coordinate);
-      check(nc_put_var_double(out.id(), id, values.data()), out.path(), coordinate.name, "write");
+      std::vector<double> values = io::detail::read_doubles(in, coordinate);
+      io::detail::check(nc_put_var_double(out.id(), id, values.data()), out.path(), coordinate.name, "write");
     }
 
     // Fields, one horizontal slice at a time (memory bounded by one source and one target slice).
@@ -262,7 +262,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
         std::vector<std::size_t> start(index), count(lead, 1);
         start.insert(start.end(), {0, 0});
         count.insert(count.end(), {target.ny, target.nx});
-        check(nc_put_vara_double(out.id(), o.id, start.data(), count.data(), resampled.data()), out.path(),
+        io::detail::check(nc_put_vara_double(out.id(), o.id, start.data(), count.data(), resampled.data()), out.path(),
               o.source.name, "write");
       }
     }
@@ -277,4 +277,4 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   return summary;
 }
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::maps

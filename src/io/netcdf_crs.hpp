@@ -4,7 +4,7 @@
 
 #include <string>
 
-namespace latentlift::gis {
+namespace latentlift::io::detail {
 
 /// Reads the grid_mapping attributes of (ncid_in, varid_in) and adds to (ncid_out, varid_out), in define
 /// mode, every attribute of the completed mapping it lacks (crs_wkt, earth figure, CF parameters).
@@ -30,4 +30,4 @@ void write_latlon_variables(int ncid_in, const std::string& x_var, const std::st
                             const std::string& grid_mapping_var, int ncid_out, const LatLonVariableIds& ids,
                             const std::string& file);
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::io::detail

@@ -9,16 +9,16 @@
 #include <fstream>
 #include <sstream>
 
-#include "gis/colour_scale.hpp"
-#include "gis/font.hpp"
-#include "gis/netcdf_file.hpp"
-#include "gis/png_image.hpp"
-#include "gis/proj_handles.hpp"
-#include "gis/resample.hpp"
-#include "gis/source_grid.hpp"
+#include "maps/colour_scale.hpp"
+#include "maps/font.hpp"
+#include "io/netcdf_file.hpp"
+#include "maps/png_image.hpp"
+#include "geo/proj_handles.hpp"
+#include "maps/resample.hpp"
+#include "maps/source_grid.hpp"
 #include "latentlift/errors.hpp"
 
-namespace latentlift::gis {
+namespace latentlift::maps {
 
 namespace {
 
@@ -121,7 +121,7 @@ struct Raster {
   std::size_t nx = 0, ny = 0;            // columns west->east, rows north->south
   std::vector<double> values;            // row-major, row 0 north
   bool georeferenced = false;            // regular in `crs`
-  std::optional<Crs> crs;
+  std::optional<geo::Crs> crs;
   double west = 0, north = 0, dx = 0, dy = 0;  // outer edges and cell size (dy > 0)
 };
 
@@ -191,8 +191,8 @@ std::vector<std::string> split(const std::string& text) {
 QuicklookSummary quicklook_file(const std::string& input, const std::string& png_path, const QuicklookOptions& options) {
   namespace fs = std::filesystem;
   if (!options.overwrite && fs::exists(png_path)) throw UsageError(png_path + " exists; use --overwrite to replace it");
-  NcFile file = NcFile::open_read(input);
-  auto var = find_variable(file, options.field);
+  io::detail::NcFile file = io::detail::NcFile::open_read(input);
+  auto var = io::detail::find_variable(file, options.field);
   if (!var) throw InputError(input, options.field, "a variable of this name (see ncdump -h for the fields)");
   SourceGrid grid = grid_of(file, *var);
 
@@ -203,8 +203,8 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   bool has_time = false;
   for (std::size_t k = 0; k < lead; ++k) {
     const std::string& dim = var->dim_names[k];
-    auto coordinate = find_variable(file, dim);
-    std::string units = coordinate ? text_attribute(file, coordinate->id, "units").value_or("") : "";
+    auto coordinate = io::detail::find_variable(file, dim);
+    std::string units = coordinate ? io::detail::text_attribute(file, coordinate->id, "units").value_or("") : "";
     bool is_time = units.find(" since ") != std::string::npos || dim == "time";
     std::size_t wanted = is_time ? options.time_index : options.level_index;
     if (wanted >= var->shape[k])
@@ -212,10 +212,10 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
                        std::to_string(var->shape[k]) + " steps of dimension '" + dim + "' in " + input);
     index[k] = wanted;
     std::optional<double> value;
-    if (coordinate && coordinate->dim_names.size() == 1) value = read_doubles(file, *coordinate).at(wanted);
+    if (coordinate && coordinate->dim_names.size() == 1) value = io::detail::read_doubles(file, *coordinate).at(wanted);
     if (is_time) {
       has_time = true;
-      std::string calendar = coordinate ? text_attribute(file, coordinate->id, "calendar").value_or("") : "";
+      std::string calendar = coordinate ? io::detail::text_attribute(file, coordinate->id, "calendar").value_or("") : "";
       valid_time = value ? format_time(*value, units, calendar) : "time index " + std::to_string(wanted);
     } else {
       level_text += ", " + dim + " " + (value ? format_value(*value) + (units.empty() ? "" : " " + units) : std::to_string(wanted));
@@ -236,8 +236,8 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   ColourBins bins;
   std::vector<Rgb> steps;
   if (summary.classes) {
-    auto values = number_attribute(file, var->id, "flag_values");
-    class_names = split(text_attribute(file, var->id, "flag_meanings").value_or(""));
+    auto values = io::detail::number_attribute(file, var->id, "flag_values");
+    class_names = split(io::detail::text_attribute(file, var->id, "flag_meanings").value_or(""));
     if (values) class_values = *values;
     if (class_values.empty()) {  // classes without flag_values: the distinct values present
       for (double v : raster.values)
@@ -277,21 +277,21 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   int map_w = static_cast<int>(raster.nx) * s, map_h = static_cast<int>(raster.ny) * s;
   int width = std::max(map_w + 2 * margin, 440);
   std::size_t chars = static_cast<std::size_t>((width - 2 * margin) / kGlyphAdvance);
-  std::string units = text_attribute(file, var->id, "units").value_or("");
-  std::string long_name = text_attribute(file, var->id, "long_name").value_or("");
+  std::string units = io::detail::text_attribute(file, var->id, "units").value_or("");
+  std::string long_name = io::detail::text_attribute(file, var->id, "long_name").value_or("");
   std::string title = options.field + (units.empty() || units == "1" ? "" : " [" + units + "]");
   std::vector<std::string> sub = wrap(long_name, chars);
   std::string when = "valid " + summary.valid_time + level_text;
   for (auto& line : wrap(when, chars)) sub.push_back(line);
   // The [analysis] part of the recorded settings (the input aliases are not needed on a map).
-  std::string settings = text_attribute(file, NC_GLOBAL, "latentlift_settings").value_or("");
+  std::string settings = io::detail::text_attribute(file, NC_GLOBAL, "latentlift_settings").value_or("");
   if (auto begin = settings.find("[analysis]"); begin != std::string::npos) {
     settings = settings.substr(begin + 10);
     settings = settings.substr(0, settings.find('['));
   }
   std::string crs_name = grid.crs ? grid.crs->name() : std::string("?");
   if (crs_name == "unknown" || crs_name == "unnamed") {
-    const Attribute* mapping = find_attribute(grid.mapping, "grid_mapping_name");
+    const geo::Attribute* mapping = geo::find_attribute(grid.mapping, "grid_mapping_name");
     if (mapping && std::holds_alternative<std::string>(mapping->value)) crs_name = std::get<std::string>(mapping->value);
   }
   std::string crs_text = "grid: " + crs_name + ", " +
@@ -420,4 +420,4 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   return summary;
 }
 
-}  // namespace latentlift::gis
+}  // namespace latentlift::maps

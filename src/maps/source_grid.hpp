@@ -6,10 +6,10 @@
 #include <string>
 #include <vector>
 
-#include "gis/netcdf_file.hpp"
+#include "io/netcdf_file.hpp"
 #include "latentlift/crs.hpp"
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 struct SourceGrid {
   enum class Kind {
@@ -17,9 +17,9 @@ struct SourceGrid {
     points        // lat/lon per cell: unstructured (one dimension) or curvilinear (two)
   };
   Kind kind = Kind::rectilinear;
-  std::optional<Crs> crs;      // rectilinear: the CRS of x/y; points: the geographic CRS of lon/lat
+  std::optional<geo::Crs> crs;      // rectilinear: the CRS of x/y; points: the geographic CRS of lon/lat
   std::string mapping_variable;  // empty when the file has no grid_mapping
-  AttributeList mapping;         // the input grid_mapping attributes
+  geo::AttributeList mapping;         // the input grid_mapping attributes
   std::vector<std::string> dims;       // horizontal dimensions, slowest first
   std::vector<std::size_t> shape;
   std::string x_name, y_name;          // rectilinear coordinate variables
@@ -35,16 +35,16 @@ struct SourceGrid {
 };
 
 /// The horizontal grid of field; InputError when it cannot be identified unambiguously.
-SourceGrid grid_of(const NcFile& file, const VarInfo& field);
+SourceGrid grid_of(const io::detail::NcFile& file, const io::detail::VarInfo& field);
 
 /// Whether var is a data field on this grid (its trailing dimensions are the grid's; not a coordinate).
-bool is_field_on(const NcFile& file, const VarInfo& var, const SourceGrid& grid);
+bool is_field_on(const io::detail::NcFile& file, const io::detail::VarInfo& var, const SourceGrid& grid);
 
 /// Whether a field holds classes or flags (byte type, flag_values or flag_masks): resampled by nearest cell.
-bool is_class_field(const NcFile& file, const VarInfo& var);
+bool is_class_field(const io::detail::NcFile& file, const io::detail::VarInfo& var);
 
 /// One horizontal slice of field (leading indices given, e.g. {time}), unpacked; NaN where missing.
-std::vector<double> read_slice(const NcFile& file, const VarInfo& field, const SourceGrid& grid,
+std::vector<double> read_slice(const io::detail::NcFile& file, const io::detail::VarInfo& field, const SourceGrid& grid,
                                const std::vector<std::size_t>& leading_index);
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail

@@ -6,7 +6,7 @@
 #include <cstddef>
 #include <vector>
 
-namespace latentlift::gis::detail {
+namespace latentlift::maps::detail {
 
 class SphereIndex {
  public:
@@ -33,4 +33,4 @@ class SphereIndex {
 /// Unit vector of a longitude/latitude in degrees.
 std::array<double, 3> unit_vector(double lon_deg, double lat_deg);
 
-}  // namespace latentlift::gis::detail
+}  // namespace latentlift::maps::detail
