@@ -78,6 +78,11 @@ void apply(RunConfig& config, const std::string& section, const std::string& key
       if (!(value >= 0.0 && value < 50.0))
         throw UsageError("config key " + full + ": expected a temperature excess in K from 0 to 50");
       config.analysis.min_excess_k = value;
+    } else if (key == "mu_parcel") {
+      auto text = node.value<std::string>();
+      if (!text || (*text != "max_cape" && *text != "max_theta_w"))
+        throw UsageError("config key " + full + ": expected \"max_cape\" or \"max_theta_w\"");
+      config.analysis.mu_parcel = parse_mu_parcel_rule(text->c_str());
     } else {
       throw UsageError("unknown config key " + full);
     }
@@ -169,7 +174,8 @@ std::string config_to_toml(const RunConfig& config) {
   std::ostringstream out;
   out << "[analysis]\nbuoyancy = \"" << to_string(config.analysis.buoyancy) << "\"\ntop_pressure_hpa = "
       << config.analysis.top_pressure_pa / kPaPerHpa << "\nsource_layer_hpa = " << config.analysis.source_layer_pa / kPaPerHpa
-      << "\nmin_excess_k = " << config.analysis.min_excess_k << "\n\n[input]\n";
+      << "\nmin_excess_k = " << config.analysis.min_excess_k << "\nmu_parcel = \"" << to_string(config.analysis.mu_parcel)
+      << "\"\n\n[input]\n";
   for (const auto& [quantity, names] : config.aliases) {
     out << quantity << " = [";
     for (std::size_t i = 0; i < names.size(); ++i) out << (i ? ", " : "") << '"' << names[i] << '"';

@@ -3,6 +3,7 @@
 #include <gtest/gtest.h>
 
 #include <fstream>
+#include <iterator>
 
 #include "latentlift/config.hpp"
 #include "latentlift/errors.hpp"
@@ -32,6 +33,20 @@ TEST(Config, DefaultsAreThoseOfTheDesign) {
   EXPECT_DOUBLE_EQ(config.analysis.top_pressure_pa, 10000.0);   // 100 hPa
   EXPECT_DOUBLE_EQ(config.analysis.source_layer_pa, 30000.0);   // 300 hPa
   EXPECT_DOUBLE_EQ(config.analysis.min_excess_k, 0.01);
+  EXPECT_EQ(config.analysis.mu_parcel, MuParcelRule::max_cape);
+}
+
+TEST(Config, DefaultTomlNamesTheMuParcelRule) {
+  std::ifstream in(kDefaultToml);
+  const std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  EXPECT_NE(text.find("\nmu_parcel = \"max_cape\""), std::string::npos);
+}
+
+TEST(Config, SetChoosesTheMuParcelRuleAndTheSettingsRecordIt) {
+  RunConfig config = load_config("", {"analysis.mu_parcel=max_theta_w"});
+  EXPECT_EQ(config.analysis.mu_parcel, MuParcelRule::max_theta_w);
+  EXPECT_NE(config_to_toml(config).find("mu_parcel = \"max_theta_w\""), std::string::npos);
+  EXPECT_NE(config_to_toml(load_config("", {})).find("mu_parcel = \"max_cape\""), std::string::npos);
 }
 
 TEST(Config, EveryProfileLoads) {
@@ -65,6 +80,7 @@ TEST(Config, UnknownKeyIsAUsageErrorNamingTheKey) {
 
 TEST(Config, BadValuesAreUsageErrorsNamingTheKey) {
   EXPECT_NE(usage_error_of({"analysis.buoyancy=potential"}).find("analysis.buoyancy"), std::string::npos);
+  EXPECT_NE(usage_error_of({"analysis.mu_parcel=max_theta_e"}).find("analysis.mu_parcel"), std::string::npos);
   EXPECT_NE(usage_error_of({"analysis.top_pressure_hpa=-5"}).find("analysis.top_pressure_hpa"), std::string::npos);
   EXPECT_NE(usage_error_of({"analysis.min_excess_k=warm"}).find("analysis.min_excess_k"), std::string::npos);
   EXPECT_NE(usage_error_of({"run.block_columns=0"}).find("run.block_columns"), std::string::npos);
