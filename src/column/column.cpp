@@ -13,16 +13,17 @@
 //     two levels and the layer midpoint (the pseudo-adiabat bows against the
 //     environment's straight chord). Flags, LFC and EL of every parcel are then
 //     comparisons and running minima, O(levels) per column;
-//  4. only the reported parcels (most unstable, and those whose excess is needed
-//     for a layer boundary or a level field) get an explicit ascent: buoyancy
-//     (K) evaluated along the parcel's pseudo-adiabat with one table look-up per
-//     point (walk): on each piece of the ascent (a layer, split at the LCL) the
+//  4. only some parcels get an explicit ascent: the candidates for the most-unstable
+//     parcel (flagged source-layer parcels not bounded by another's CAPE, see
+//     most_unstable.hpp) and those whose excess is needed for a layer boundary or a
+//     level field: buoyancy (K) evaluated along the parcel's pseudo-adiabat with
+//     one table look-up per point (walk): on each piece of the ascent (a layer, split at the LCL) the
 //     buoyancy is the parabola through the piece's ends and midpoint, whose
 //     maximum and positive / negative areas are exact; CAPE and CIN follow.
 //
 // Reading order: load -> build_analysis_column -> init_parcel (LCL, theta_w, flag,
-// find_lfc) -> full_ascent (walk, find_el) -> analyze (MU parcel, easiest lift,
-// layers) -> fill_level_fields.
+// find_lfc) -> full_ascent (walk, find_el) -> most_unstable_by_cape -> analyze (MU
+// parcel, easiest lift, layers) -> fill_level_fields.
 #include "latentlift/column.hpp"
 
 #include <algorithm>
@@ -36,6 +37,7 @@
 
 #include "latentlift/pseudoadiabat.hpp"
 #include "latentlift/thermo.hpp"
+#include "column/most_unstable.hpp"
 
 namespace latentlift {
 
@@ -237,6 +239,8 @@ struct ColumnAnalyzer::Impl {
   std::vector<int> position_of_input;  // input index -> position in levels (-1 unusable)
   int n_source = 0;
   int n_input = 0;
+  std::vector<detail::MuCandidate> candidates;  // flagged source-layer parcels (most_unstable_by_cape)
+  std::vector<ParcelAscent> candidate_ascents;  // their ascents, by position
 
   explicit Impl(const AnalysisSettings& s) : settings(s), virtual_mode(s.buoyancy == BuoyancyMode::virtual_temperature) {
     if (!(s.top_pressure_pa >= Table::kPressureMinPa && s.top_pressure_pa < Table::kPressureMaxPa))
@@ -489,6 +493,23 @@ struct ColumnAnalyzer::Impl {
     return out;
   }
 
+  // The flagged source-layer parcel with the largest CAPE (exact ties: the lowest level), its
+  // ascent in *best; -1 when none is flagged. Parcels bounded by another's CAPE are not lifted
+  // (detail::choose_most_unstable).
+  int most_unstable_by_cape(ParcelAscent& best) {
+    candidates.clear();
+    for (int k = 0; k < n_source; ++k)
+      if (parcels[k].flagged) candidates.push_back({k, parcels[k].theta_w, parcels[k].lcl_lnp});
+    if (candidates.empty()) return -1;
+    candidate_ascents.resize(static_cast<std::size_t>(n_source));
+    const int mu = detail::choose_most_unstable(candidates, [&](int k) {
+      candidate_ascents[static_cast<std::size_t>(k)] = full_ascent(parcels[k]);
+      return candidate_ascents[static_cast<std::size_t>(k)].cape_j_kg;
+    });
+    best = candidate_ascents[static_cast<std::size_t>(mu)];
+    return mu;
+  }
+
   // ------------------------------------------------------------ the column
   bool load(const ColumnInput& in, QcCounts& qc) {
     n_input = in.n_levels;
@@ -728,15 +749,19 @@ struct ColumnAnalyzer::Impl {
     for (int k = 0; k < n_parcels; ++k)
       if (levels[k].index >= 0) init_parcel(k);
 
-    // Most-unstable parcel: largest theta_w in the source layer, lowest on ties.
-    int mu = -1;
-    for (int k = 0; k < n_source; ++k)
-      if (!std::isnan(parcels[k].theta_w) && (mu < 0 || parcels[k].theta_w > parcels[mu].theta_w)) mu = k;
+    // Most-unstable parcel (METHODS): by default the flagged source-layer parcel with the
+    // largest CAPE; where none is flagged, or with mu_parcel = max_theta_w, the largest theta_w.
+    ParcelAscent a{};
+    int mu = settings.mu_parcel == MuParcelRule::max_cape ? most_unstable_by_cape(a) : -1;
+    if (mu < 0) {
+      for (int k = 0; k < n_source; ++k)  // largest theta_w, lowest on ties
+        if (!std::isnan(parcels[k].theta_w) && (mu < 0 || parcels[k].theta_w > parcels[mu].theta_w)) mu = k;
+      if (mu >= 0) a = full_ascent(parcels[mu]);
+    }
     if (mu >= 0) {
-      Parcel& pc = parcels[mu];
+      const Parcel& pc = parcels[mu];
       res.mu_pressure_pa = levels[mu].p;
       res.mu_theta_w_k = pc.theta_w;
-      const ParcelAscent a = full_ascent(pc);
       res.mu_cape_j_kg = a.cape_j_kg;
       if (pc.flagged) {
         res.mu_cin_j_kg = a.cin_j_kg;

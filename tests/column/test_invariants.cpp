@@ -102,10 +102,11 @@ std::string describe(int index, const OwnedColumn& c) {
   return s;
 }
 
-/// Runs body(index, column, view, analyzer, result) over the pool in one mode.
+/// Runs body(index, column, view, analyzer, result) over the pool in one mode (and MU rule).
 template <class Body>
-void for_each_column(BuoyancyMode mode, Body body) {
-  const AnalysisSettings s = settings_for(mode);
+void for_each_column(BuoyancyMode mode, Body body, MuParcelRule rule = MuParcelRule::max_cape) {
+  AnalysisSettings s = settings_for(mode);
+  s.mu_parcel = rule;
   ColumnAnalyzer analyzer(s);
   ColumnResult r;
   const auto& columns = pool();
@@ -425,37 +426,132 @@ TEST(ColumnInvariants, TangentIsMinimumSaturationThetaWOfAnalysedLevels) {
   EXPECT_EQ(failures, 0);
 }
 
-TEST(ColumnInvariants, MostUnstableParcelHasLargestThetaWOfSourceLayer) {
-  // METHODS: MU parcel = source-layer level with the largest theta_w (ties: lowest);
-  // its CAPE, CIN, LFC and EL are those of its ascent.
+/// True when the column result's MU fields are those of the ascent from input level k.
+bool mu_fields_are_ascent(const ColumnResult& r, const OwnedColumn& c, int k, const ParcelAscent& asc) {
+  return same(r.mu_pressure_pa, c.pressure_pa[k]) &&
+         same(r.mu_theta_w_k, r.levels.wet_bulb_potential_temperature_k[k]) &&
+         same(r.mu_cape_j_kg, asc.cape_j_kg) && same(r.mu_cin_j_kg, asc.cin_j_kg) &&
+         same(r.mu_lfc_pressure_pa, asc.lfc_pressure_pa) && same(r.mu_el_pressure_pa, asc.el_pressure_pa) &&
+         same(r.mu_lift_to_lfc_pa, asc.flagged ? c.pressure_pa[k] - asc.lfc_pressure_pa : kNaN);
+}
+
+/// The source-layer level with the largest theta_w (ties: the lowest), -1 if none.
+int largest_theta_w_level(const OwnedColumn& c, const LevelView& v, const ColumnResult& r) {
+  int mu = -1;
+  for (int k = 0; k < c.n(); ++k) {
+    if (!v.source[k]) continue;
+    const double tw = r.levels.wet_bulb_potential_temperature_k[k];
+    if (mu < 0) {
+      mu = k;
+      continue;
+    }
+    const double best = r.levels.wet_bulb_potential_temperature_k[mu];
+    if (tw > best || (tw == best && c.pressure_pa[k] > c.pressure_pa[mu])) mu = k;
+  }
+  return mu;
+}
+
+TEST(ColumnInvariants, MostUnstableParcelHasLargestCapeOfFlaggedSourceParcels) {
+  // METHODS: MU parcel = the flagged source-layer parcel with the largest CAPE (exact ties:
+  // the lowest level). Checked against every flagged parcel lifted on its own
+  // (ascent_from_level), so a parcel the kernel skipped as bounded would show here.
   for (BuoyancyMode mode : kModes) {
-    long failures = 0;
+    long failures = 0, columns = 0, not_lowest_theta_w = 0;
     for_each_column(mode, [&](int i, const OwnedColumn& c, const LevelView& v,
                               const ColumnAnalyzer& a, const ColumnResult& r) {
       if (v.n_usable < 3) return;
       int mu = -1;
+      ParcelAscent best{};
       for (int k = 0; k < c.n(); ++k) {
-        if (!v.source[k]) continue;
-        const double tw = r.levels.wet_bulb_potential_temperature_k[k];
-        if (mu < 0) { mu = k; continue; }
-        const double best = r.levels.wet_bulb_potential_temperature_k[mu];
-        if (tw > best || (tw == best && c.pressure_pa[k] > c.pressure_pa[mu])) mu = k;
+        if (!v.source[k] || r.levels.latent_flag[k] != 1) continue;
+        const ParcelAscent asc = a.ascent_from_level(k);
+        if (mu < 0 || asc.cape_j_kg > best.cape_j_kg ||
+            (asc.cape_j_kg == best.cape_j_kg && c.pressure_pa[k] > c.pressure_pa[mu])) {
+          mu = k;
+          best = asc;
+        }
       }
-      ASSERT_GE(mu, 0) << describe(i, c);
-      const ParcelAscent asc = a.ascent_from_level(mu);
-      const bool ok = same(r.mu_pressure_pa, c.pressure_pa[mu]) &&
-                      same(r.mu_theta_w_k, r.levels.wet_bulb_potential_temperature_k[mu]) &&
-                      same(r.mu_cape_j_kg, asc.cape_j_kg) && same(r.mu_cin_j_kg, asc.cin_j_kg) &&
-                      same(r.mu_lfc_pressure_pa, asc.lfc_pressure_pa) &&
-                      same(r.mu_el_pressure_pa, asc.el_pressure_pa) &&
-                      same(r.mu_lift_to_lfc_pa, asc.flagged ? c.pressure_pa[mu] - asc.lfc_pressure_pa : kNaN);
-      if (!ok && failures++ < 5)
-        ADD_FAILURE() << describe(i, c) << ": MU at " << r.mu_pressure_pa << " Pa theta_w "
-                      << r.mu_theta_w_k << " CAPE " << r.mu_cape_j_kg << " LFC "
-                      << r.mu_lfc_pressure_pa << "; expected level " << c.pressure_pa[mu]
-                      << " theta_w " << r.levels.wet_bulb_potential_temperature_k[mu] << " CAPE "
-                      << asc.cape_j_kg << " LFC " << asc.lfc_pressure_pa;
+      if (mu < 0) return;
+      ++columns;
+      if (mu != largest_theta_w_level(c, v, r)) ++not_lowest_theta_w;
+      if (!mu_fields_are_ascent(r, c, mu, best) && failures++ < 5)
+        ADD_FAILURE() << describe(i, c) << ": MU at " << r.mu_pressure_pa << " Pa CAPE " << r.mu_cape_j_kg
+                      << "; expected level " << c.pressure_pa[mu] << " Pa CAPE " << best.cape_j_kg;
     });
+    EXPECT_EQ(failures, 0);
+    // the pool must hold columns where the CAPE rule and the theta_w rule part
+    EXPECT_GT(not_lowest_theta_w, 0);
+    std::printf("[ mu rule ] mode %s: %ld columns with a flagged source parcel, %ld where the largest "
+                "CAPE is not the largest theta_w\n",
+                to_string(mode), columns, not_lowest_theta_w);
+  }
+}
+
+TEST(ColumnInvariants, MostUnstableParcelHasLargestThetaWWhereNoSourceParcelIsFlagged) {
+  // METHODS: without a flagged source-layer parcel the MU parcel is the largest theta_w
+  // (ties: lowest), with no LFC and CAPE 0.
+  for (BuoyancyMode mode : kModes) {
+    long failures = 0, seen = 0;
+    for_each_column(mode, [&](int i, const OwnedColumn& c, const LevelView& v,
+                              const ColumnAnalyzer& a, const ColumnResult& r) {
+      if (v.n_usable < 3) return;
+      for (int k = 0; k < c.n(); ++k)
+        if (v.source[k] && r.levels.latent_flag[k] == 1) return;
+      const int mu = largest_theta_w_level(c, v, r);
+      ASSERT_GE(mu, 0) << describe(i, c);
+      ++seen;
+      const ParcelAscent asc = a.ascent_from_level(mu);
+      const bool ok = mu_fields_are_ascent(r, c, mu, asc) && r.mu_cape_j_kg == 0.0 &&
+                      std::isnan(r.mu_lfc_pressure_pa);
+      if (!ok && failures++ < 5)
+        ADD_FAILURE() << describe(i, c) << ": MU at " << r.mu_pressure_pa << " Pa, expected "
+                      << c.pressure_pa[mu] << " Pa";
+    });
+    EXPECT_GT(seen, 0);
+    EXPECT_EQ(failures, 0);
+  }
+}
+
+TEST(ColumnInvariants, MaxThetaWRuleChoosesLargestThetaWOfSourceLayer) {
+  // METHODS: with analysis.mu_parcel = max_theta_w the MU parcel is the source-layer level
+  // with the largest theta_w (ties: lowest) in every column; its CAPE, CIN, LFC and EL are
+  // those of its ascent.
+  for (BuoyancyMode mode : kModes) {
+    long failures = 0;
+    for_each_column(
+        mode,
+        [&](int i, const OwnedColumn& c, const LevelView& v, const ColumnAnalyzer& a, const ColumnResult& r) {
+          if (v.n_usable < 3) return;
+          const int mu = largest_theta_w_level(c, v, r);
+          ASSERT_GE(mu, 0) << describe(i, c);
+          const ParcelAscent asc = a.ascent_from_level(mu);
+          if (!mu_fields_are_ascent(r, c, mu, asc) && failures++ < 5)
+            ADD_FAILURE() << describe(i, c) << ": MU at " << r.mu_pressure_pa << " Pa theta_w "
+                          << r.mu_theta_w_k << "; expected level " << c.pressure_pa[mu] << " theta_w "
+                          << r.levels.wet_bulb_potential_temperature_k[mu];
+        },
+        MuParcelRule::max_theta_w);
+    EXPECT_EQ(failures, 0);
+  }
+}
+
+TEST(ColumnInvariants, LatentClassIsAtLeastPseudoLatentExactlyWhenASourceParcelIsFlagged) {
+  // METHODS: with the CAPE rule latent_class >= 1 exactly where some source-layer parcel is
+  // flagged (in step with latent_layer_depth > 0).
+  for (BuoyancyMode mode : kModes) {
+    long failures = 0, flagged_columns = 0;
+    for_each_column(mode, [&](int i, const OwnedColumn& c, const LevelView& v, const ColumnAnalyzer&,
+                              const ColumnResult& r) {
+      if (v.n_usable < 3) return;
+      bool any = false;
+      for (int k = 0; k < c.n(); ++k) any = any || (v.source[k] && r.levels.latent_flag[k] == 1);
+      flagged_columns += any ? 1 : 0;
+      const bool latent = r.latent_class >= 1;
+      if ((latent != any || latent != (r.latent_layer_depth_pa > 0.0)) && failures++ < 5)
+        ADD_FAILURE() << describe(i, c) << ": flagged source parcel " << any << ", latent_class "
+                      << int(r.latent_class) << ", latent_layer_depth " << r.latent_layer_depth_pa;
+    });
+    EXPECT_GT(flagged_columns, 0);
     EXPECT_EQ(failures, 0);
   }
 }

@@ -267,6 +267,22 @@ double lcl_pa(double t, double td, double p_pa) {
   return th::lcl_pressure_pa(t, p_pa, th::lcl_temperature_k(t, td), r);
 }
 
+/// The dew point in [lo, hi], K, where increasing(td) reaches target (bisection to rounding).
+template <class F>
+double dew_point_where(F increasing, double target, double lo, double hi) {
+  for (int it = 0; it < 200; ++it) {
+    const double mid = 0.5 * (lo + hi);
+    (increasing(mid) < target ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+/// Dew point, K, of air at t (K) and p0_pa whose Bolton LCL lies at lcl_target_pa.
+double dew_point_for_lcl(double t, double p0_pa, double lcl_target_pa) {
+  // LCL pressure grows with the dew point
+  return dew_point_where([&](double td) { return lcl_pa(t, td, p0_pa); }, lcl_target_pa, 250.0, t);
+}
+
 // Profile "warm at the LCL": surface air at 1000 hPa, 303 K, with the dew point
 // chosen so that its (Bolton) LCL lies at 920 hPa. Below the LCL the environment is
 // 1.5 K colder than the parcel's dry adiabat (a superadiabatic 1000-975 hPa layer,
@@ -283,13 +299,8 @@ struct WarmAtLcl {
 };
 
 WarmAtLcl warm_at_lcl() {
-  const double t0 = 303.0, p0 = 100000.0, target = 92000.0;
-  double lo = 250.0, hi = t0;  // dew point bracket: LCL pressure grows with the dew point
-  for (int it = 0; it < 200; ++it) {
-    const double mid = 0.5 * (lo + hi);
-    (lcl_pa(t0, mid, p0) < target ? lo : hi) = mid;
-  }
-  const double td0 = 0.5 * (lo + hi);
+  const double t0 = 303.0, p0 = 100000.0;
+  const double td0 = dew_point_for_lcl(t0, p0, 92000.0);
   const double r0 = th::mixing_ratio(th::saturation_vapour_pressure_pa(td0), p0);
   const double kappa = th::poisson_kappa(r0);
   const double lcl_t = th::lcl_temperature_k(t0, td0);
@@ -617,6 +628,153 @@ TEST(KnownProfiles, ElevatedColumnTangentIsTheColdSurface) {
   const ColumnResult r = analyze_column(c.view(), settings_for(BuoyancyMode::virtual_temperature));
   EXPECT_NEAR(r.tangent_theta_w_k, kThetaB - 5.0, kTableTolK);
   EXPECT_EQ(r.tangent_pressure_pa, 100000.0);
+}
+
+// ============================================================ choosing the most-unstable parcel
+
+/// theta_w, K, of air (T, Td) at p_pa computed outside the kernel: Bolton (1980) LCL, then
+/// the reference pseudo-adiabat (accurate ODE integration) from the LCL to 1000 hPa.
+double reference_theta_w(double t, double td, double p_pa) {
+  return pseudoadiabat::reference_theta_w_k(std::min(th::lcl_temperature_k(t, td), t),
+                                            std::min(lcl_pa(t, td, p_pa), p_pa));
+}
+
+AnalysisSettings with_rule(BuoyancyMode mode, MuParcelRule rule) {
+  AnalysisSettings s = settings_for(mode);
+  s.mu_parcel = rule;
+  return s;
+}
+
+// Profile "capped": the "surface-based" profile (a saturated, latently unstable surface
+// layer, 1000-925 hPa, surface parcel theta_A + 2 K) with the top level of the source
+// layer, 700 hPa, made a warm, dry cap: on the pseudo-adiabat theta_A + 8 K, with the
+// dew point that gives it theta_w = theta_A + 3 K, above every surface parcel's. Its LCL
+// lies above 700 hPa, where theta_w_star is theta_A + 5 K and more, so the cap parcel is
+// never buoyant. The largest theta_w is the cap; the largest CAPE is the surface parcel
+// (the most buoyant of the saturated surface parcels, the lowest LCL).
+constexpr double kCapThetaW = kThetaA + 3.0;
+
+Sounding capped() {
+  Sounding s = surface_based();
+  const int k = s.index_of(700.0);
+  s.t[k] = on_adiabat(kThetaA + 8.0, 700.0);
+  // theta_w grows with the dew point
+  s.td[k] = dew_point_where([&](double td) { return reference_theta_w(s.t[k], td, 70000.0); }, kCapThetaW,
+                            200.0, s.t[k]);
+  return s;
+}
+
+TEST(KnownProfiles, CappedColumnCapeRuleChoosesTheLatentlyUnstableSurfaceParcel) {
+  const OwnedColumn c = capped().column();
+  for (BuoyancyMode mode : kModes) {
+    SCOPED_TRACE(to_string(mode));
+    const ColumnResult r = analyze_column(c.view(), with_rule(mode, MuParcelRule::max_cape));
+    EXPECT_EQ(r.mu_pressure_pa, 100000.0);
+    EXPECT_NEAR(r.mu_theta_w_k, kThetaA + 2.0, kTableTolK);
+    EXPECT_EQ(r.latent_class, static_cast<std::int8_t>(LatentClass::real_latent));
+    const double expected = independent_cape(c, kThetaA + 2.0, 100000.0, 10000.0,
+                                             mode == BuoyancyMode::virtual_temperature);
+    EXPECT_NEAR(r.mu_cape_j_kg, expected, 0.005 * expected);
+  }
+}
+
+TEST(KnownProfiles, CappedColumnThetaWRuleChoosesTheDryCapWithoutLfc) {
+  // The equivalent-potential-temperature convention (mu_parcel = max_theta_w) picks the
+  // cap: class none and CAPE 0 although the surface layer is latently unstable.
+  const OwnedColumn c = capped().column();
+  for (BuoyancyMode mode : kModes) {
+    SCOPED_TRACE(to_string(mode));
+    const ColumnResult r = analyze_column(c.view(), with_rule(mode, MuParcelRule::max_theta_w));
+    EXPECT_EQ(r.mu_pressure_pa, 70000.0);
+    EXPECT_NEAR(r.mu_theta_w_k, kCapThetaW, kTableTolK);
+    EXPECT_EQ(r.latent_class, static_cast<std::int8_t>(LatentClass::none));
+    EXPECT_EQ(r.mu_cape_j_kg, 0.0);
+    EXPECT_TRUE(std::isnan(r.mu_lfc_pressure_pa));
+    EXPECT_GT(r.latent_layer_depth_pa, 0.0);  // the layer fields do not depend on the rule
+  }
+}
+
+// Profile "elevated wins": surface air at 1000 hPa, 303 K, with the dew point that puts its
+// (Bolton) LCL at 800 hPa; theta_s is its theta_w. 975-875 hPa: 1.5 K colder than the
+// surface parcel's dry adiabat, RH 30 % (dry, low theta_w). 850 hPa: saturated, on the
+// pseudo-adiabat theta_s - 0.5 K. 825-700 hPa: RH 30 %, on theta_s - 2 K + 0.05 K/hPa
+// (825 hPa - p); 675-250 hPa: on theta_s + 4.25 K + 0.01 K/hPa (700 hPa - p); above,
+// isothermal and dry. The 850 hPa parcel is buoyant from its source to where theta_w_star
+// = theta_s - 0.5 K (795 hPa, in temperature mode); the surface parcel, warmer by 0.5 K
+// but saturated only at 800 hPa, from there to 785 hPa: the elevated parcel has the
+// larger CAPE, the surface parcel the larger theta_w.
+struct ElevatedWins {
+  Sounding sounding;
+  double theta_s, lcl_pa;
+};
+
+ElevatedWins elevated_wins() {
+  const double t0 = 303.0, p0 = 100000.0;
+  const double td0 = dew_point_for_lcl(t0, p0, 80000.0);
+  const double kappa = th::poisson_kappa(th::mixing_ratio(th::saturation_vapour_pressure_pa(td0), p0));
+  ElevatedWins out{{}, reference_theta_w(t0, td0, p0), lcl_pa(t0, td0, p0)};
+  const double ts = out.theta_s;
+  for (double p : levels_hpa()) {
+    double t;
+    if (p == 1000.0) {
+      out.sounding.add(p, t0, td0);
+    } else if (p >= 875.0) {
+      t = t0 * std::pow(p / 1000.0, kappa) - 1.5;
+      out.sounding.add(p, t, dew_point_at_rh(t, 0.3));
+    } else if (p == 850.0) {
+      t = on_adiabat(ts - 0.5, p);
+      out.sounding.add(p, t, t);
+    } else if (p >= 700.0) {
+      t = on_adiabat(ts - 2.0 + 0.05 * (825.0 - p), p);
+      out.sounding.add(p, t, dew_point_at_rh(t, 0.3));
+    } else if (p >= 250.0) {
+      t = on_adiabat(ts + 4.25 + 0.01 * (700.0 - p), p);
+      out.sounding.add(p, t, dew_point_at_rh(t, 0.3));
+    } else {
+      t = out.sounding.t.back();
+      out.sounding.add(p, t, dew_point_at_rh(t, 0.1));
+    }
+  }
+  return out;
+}
+
+TEST(KnownProfiles, ElevatedParcelWithMoreCapeIsChosenOverWarmerSurfaceParcel) {
+  const ElevatedWins e = elevated_wins();
+  const Sounding& s = e.sounding;
+  const OwnedColumn c = s.column();
+  // construction checks: the surface has the largest theta_w of the source layer
+  for (size_t k = 1; k < s.p_hpa.size() && s.p_hpa[k] >= 700.0; ++k)
+    ASSERT_LT(reference_theta_w(s.t[k], s.td[k], s.p_hpa[k] * 100.0), e.theta_s - 0.4) << s.p_hpa[k] << " hPa";
+  for (BuoyancyMode mode : kModes) {
+    SCOPED_TRACE(to_string(mode));
+    const bool virt = mode == BuoyancyMode::virtual_temperature;
+    // CAPE of both parcels integrated independently (from the LCL up: METHODS, CAPE is the
+    // positive area between LFC and EL, and nothing is buoyant between LCL and LFC)
+    const double cape_850 = independent_cape(c, e.theta_s - 0.5, 85000.0, 10000.0, virt);
+    const double cape_surface = independent_cape(c, e.theta_s, e.lcl_pa, 10000.0, virt);
+    ASSERT_GT(cape_surface, 0.5);
+    ASSERT_GT(cape_850, 2.0 * cape_surface);
+    const ColumnResult r = analyze_column(c.view(), with_rule(mode, MuParcelRule::max_cape));
+    EXPECT_EQ(r.mu_pressure_pa, 85000.0);
+    EXPECT_NEAR(r.mu_theta_w_k, e.theta_s - 0.5, kTableTolK);
+    EXPECT_NEAR(r.mu_cape_j_kg, cape_850, std::max(0.02 * cape_850, 0.5));
+    std::printf("[ cape ] elevated-wins profile, mode %s: 850 hPa parcel %.2f J/kg (kernel %.2f), "
+                "surface parcel %.2f J/kg\n", to_string(mode), cape_850, r.mu_cape_j_kg, cape_surface);
+  }
+}
+
+TEST(KnownProfiles, ElevatedWinsColumnThetaWRuleChoosesTheSurfaceParcel) {
+  const ElevatedWins e = elevated_wins();
+  const OwnedColumn c = e.sounding.column();
+  for (BuoyancyMode mode : kModes) {
+    SCOPED_TRACE(to_string(mode));
+    const ColumnResult r = analyze_column(c.view(), with_rule(mode, MuParcelRule::max_theta_w));
+    EXPECT_EQ(r.mu_pressure_pa, 100000.0);
+    EXPECT_NEAR(r.mu_theta_w_k, e.theta_s, kTableTolK);
+    // flagged (buoyant at its LCL, METHODS), LFC at the LCL
+    EXPECT_NEAR(r.mu_lfc_pressure_pa, e.lcl_pa, 100.0);
+    EXPECT_GE(r.latent_class, static_cast<std::int8_t>(LatentClass::pseudo_latent));
+  }
 }
 
 // ============================================================ superadiabatic surface layer
