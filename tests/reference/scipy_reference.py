@@ -448,12 +448,21 @@ def analyse(col, run):
             return math.nan
         return float(np.interp(x, x_lev, z[::-1]))
 
-    # Source layer, most-unstable parcel, easiest lift.
+    # Source layer, most-unstable parcel, easiest lift. MU parcel (METHODS): the flagged
+    # source-layer parcel with the largest CAPE (ties: the lowest); where none is flagged,
+    # the largest theta_w (ties: the lowest). Every parcel is lifted here, no bounds.
     src = [k for k in range(m) if p[k] >= p[0] - source_layer_pa]
-    k_mu = src[0]
-    for k in src:
-        if theta_w[k] > theta_w[k_mu]:
-            k_mu = k
+    flagged = [k for k in src if asc[k]["flag"]]
+    if flagged:
+        k_mu = flagged[0]
+        for k in flagged:
+            if asc[k]["cape"] > asc[k_mu]["cape"]:
+                k_mu = k
+    else:
+        k_mu = src[0]
+        for k in src:
+            if theta_w[k] > theta_w[k_mu]:
+                k_mu = k
     a = asc[k_mu]
     colres["mu_pressure_pa"] = p[k_mu]
     colres["mu_theta_w_k"] = theta_w[k_mu]

@@ -546,19 +546,34 @@ void check_column_fields(const std::string& mode) {
     if (ref.get("skipped") == 1.0) continue;
     ColumnResult res = analyze_column(input_of(col), settings);
     const std::string where = at(col, mode);
-    w_mu.add(res.mu_theta_w_k - ref.get("mu_theta_w_k"), where);
-    EXPECT_NEAR(res.mu_theta_w_k, ref.get("mu_theta_w_k"), kThetaTolK) << where;
     if (res.mu_pressure_pa != ref.get("mu_pressure_pa")) {
-      // Another source level may win only when its theta_w ties within the tolerance.
+      // MU rule (METHODS): the flagged source parcel with the largest CAPE, else the largest
+      // theta_w. Another source level may win only when, in the reference, it ties with the
+      // reference's choice within the tolerance of what decides: CAPE (both flagged) or
+      // theta_w (neither flagged), or when its flag or the chosen one's is a near-threshold call.
       const auto it = std::find(col.p.begin(), col.p.end(), res.mu_pressure_pa);
-      const double thw_there =
-          it == col.p.end() ? kNaN : ref.levels[it - col.p.begin()].get("theta_w");
-      if (std::fabs(thw_there - ref.get("mu_theta_w_k")) <= kThetaTolK) continue;
-      ADD_FAILURE() << where << ": MU source " << res.mu_pressure_pa << " Pa, reference "
-                    << ref.get("mu_pressure_pa") << " Pa (theta_w " << res.mu_theta_w_k << " vs "
-                    << ref.get("mu_theta_w_k") << " K)";
+      ASSERT_NE(it, col.p.end()) << where << ": MU source is not a level";
+      const LevelRef& there = ref.levels[it - col.p.begin()];
+      const int k_ref = static_cast<int>(std::find(col.p.begin(), col.p.end(), ref.get("mu_pressure_pa")) -
+                                         col.p.begin());
+      const LevelRef& chosen = ref.levels[k_ref];
+      const bool flag_there = there.get("flag") == 1.0, flag_chosen = chosen.get("flag") == 1.0;
+      const double cape_ref = ref.get("mu_cape_j_kg");
+      const bool tie = flag_there && flag_chosen
+                           ? std::fabs(there.get("cape") - cape_ref) <=
+                                 2.0 * std::max(kCapeAbsTolJKg, kCapeRelTol * cape_ref)
+                           : (!flag_there && !flag_chosen &&
+                              std::fabs(there.get("theta_w") - ref.get("mu_theta_w_k")) <= kThetaTolK);
+      if (tie || near_threshold(there.get("max_excess"), settings) ||
+          near_threshold(chosen.get("max_excess"), settings))
+        continue;
+      ADD_FAILURE() << where << ": MU source " << res.mu_pressure_pa << " Pa (CAPE " << res.mu_cape_j_kg
+                    << "), reference " << ref.get("mu_pressure_pa") << " Pa (CAPE " << cape_ref
+                    << "; reference CAPE of the kernel's choice " << there.get("cape") << ")";
       continue;
     }
+    w_mu.add(res.mu_theta_w_k - ref.get("mu_theta_w_k"), where);
+    EXPECT_NEAR(res.mu_theta_w_k, ref.get("mu_theta_w_k"), kThetaTolK) << where;
     const int k_mu = static_cast<int>(std::find(col.p.begin(), col.p.end(), ref.get("mu_pressure_pa")) -
                                       col.p.begin());
     const double mu_excess = ref.levels[k_mu].get("max_excess");
