@@ -193,6 +193,9 @@ Settings read_settings(int nc) {
   // analyze outputs record the effective configuration as TOML text
   for (const auto& [key, value] : settings_from_toml(text_att(nc, NC_GLOBAL, "latentlift_settings")))
     settings[key] = value;
+  // Files written before analysis.mu_parcel existed chose the MU parcel by its theta_w.
+  if (settings.count("analysis_buoyancy") && !settings.count("analysis_mu_parcel"))
+    settings["analysis_mu_parcel"] = "max_theta_w";
   return settings;
 }
 

@@ -128,13 +128,16 @@ def main():
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--prefix", default="analysis")
     ap.add_argument("--buoyancy", default="virtual")
+    ap.add_argument("--mu-parcel", default="max_cape",
+                    help='analysis.mu_parcel recorded in the settings; "none": not recorded (older outputs)')
     ap.add_argument("--bad-class-at", default="", help="FILE:TIME indices of a step with an invalid latent_class")
     a = ap.parse_args()
     os.makedirs(a.outdir, exist_ok=True)
     rng = np.random.default_rng(a.seed)
     start = dt.datetime.fromisoformat(a.start)
+    mu_parcel = '' if a.mu_parcel == "none" else 'mu_parcel = "%s"\n' % a.mu_parcel
     settings = ('[analysis]\nbuoyancy = "%s"\ntop_pressure_hpa = 100\nsource_layer_hpa = 300\n'
-                'min_excess_k = 0.01\n\n[run]\nthreads = 0\n' % a.buoyancy)
+                'min_excess_k = 0.01\n%s\n[run]\nthreads = 0\n' % (a.buoyancy, mu_parcel))
     bad = tuple(int(v) for v in a.bad_class_at.split(":")) if a.bad_class_at else (-1, -1)
     for f in range(a.files):
         times = [start + dt.timedelta(hours=a.step_hours * (f * a.times + k)) for k in range(a.times)]

@@ -169,6 +169,50 @@ TEST(ClimatologyCommand, InputsAnalysedWithOtherSettingsAreRefused) {
   EXPECT_NE(r.output.find("analysis settings"), std::string::npos) << r.output;
 }
 
+TEST(ClimatologyCommand, InputsWithAnotherMuParcelRuleAreRefused) {
+  const std::string dir = t::scratch_dir("clim_mu_rule");
+  generate(dir, "--files 1");  // mu_parcel = "max_cape"
+  t::run_command(script("make_analysis_outputs.py") + " " + dir +
+                 "/other --files 1 --start 2003-01-01 --mu-parcel max_theta_w");
+  auto r = climatology(dir + "/in/analysis_00.nc " + dir + "/other/analysis_00.nc -o " + dir + "/stats.nc");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.output.find("analysis_mu_parcel"), std::string::npos) << r.output;
+}
+
+TEST(ClimatologyCommand, OutputsRecordingNoMuParcelRuleCountAsThetaWRule) {
+  // Outputs written before analysis.mu_parcel existed chose the MU parcel by theta_w: they
+  // merge with max_theta_w outputs, not with max_cape ones.
+  const std::string dir = t::scratch_dir("clim_mu_rule_old");
+  t::run_command(script("make_analysis_outputs.py") + " " + dir + "/old --files 1 --mu-parcel none");
+  t::run_command(script("make_analysis_outputs.py") + " " + dir +
+                 "/theta --files 1 --start 2003-01-01 --mu-parcel max_theta_w");
+  t::run_command(script("make_analysis_outputs.py") + " " + dir + "/cape --files 1 --start 2004-01-01");
+  auto ok = climatology(dir + "/old/analysis_00.nc " + dir + "/theta/analysis_00.nc -o " + dir + "/a.nc");
+  EXPECT_EQ(ok.exit_code, 0) << ok.output;
+  auto header = t::run_command("ncdump -h " + dir + "/a.nc");
+  EXPECT_NE(header.output.find("analysis_mu_parcel = \"max_theta_w\""), std::string::npos) << header.output;
+  auto refused = climatology(dir + "/old/analysis_00.nc " + dir + "/cape/analysis_00.nc -o " + dir + "/b.nc");
+  EXPECT_EQ(refused.exit_code, 2) << refused.output;
+}
+
+TEST(ClimatologyCommand, ModelInputsAreAnalysedWithTheConfiguredMuParcelRule) {
+  // --set analysis.mu_parcel reaches the analysis of model inputs: the statistics equal those
+  // of `analyze --set analysis.mu_parcel=max_theta_w` output, and the file records the rule.
+  const std::string sample = std::string(LATENTLIFT_SOURCE_DIR) + "/sample_grids/aurel_global_5deg.nc";
+  if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid " << sample;
+  const std::string dir = t::scratch_dir("clim_model_input_mu_rule");
+  const std::string rule = " --set analysis.mu_parcel=max_theta_w";
+  auto a = t::run_command(t::binary() + " analyze " + sample + " -o " + dir + "/analysis.nc --quiet" + rule);
+  ASSERT_EQ(a.exit_code, 0) << a.output;
+  ASSERT_EQ(climatology(dir + "/analysis.nc -o " + dir + "/from_output.nc").exit_code, 0);
+  auto m = climatology(sample + " -o " + dir + "/from_model.nc" + rule);
+  ASSERT_EQ(m.exit_code, 0) << m.output;
+  auto header = t::run_command("ncdump -h " + dir + "/from_model.nc");
+  EXPECT_NE(header.output.find("analysis_mu_parcel = \"max_theta_w\""), std::string::npos) << header.output;
+  auto same = compare(dir + "/from_output.nc", dir + "/from_model.nc", "--statistics-only");
+  EXPECT_EQ(same.exit_code, 0) << same.output;
+}
+
 TEST(ClimatologyCommand, ModelInputsAreAnalysedLikeTheirAnalyzeOutput) {
   const std::string sample = std::string(LATENTLIFT_SOURCE_DIR) + "/sample_grids/aurel_global_5deg.nc";
   if (!fs::exists(sample)) GTEST_SKIP() << "no sample grid " << sample;
