@@ -12,7 +12,7 @@
 #include <random>
 #include <vector>
 
-#include "column/random_columns.hpp"
+#include "column_pool.hpp"
 #include "latentlift/column.hpp"
 #include "latentlift/pseudoadiabat.hpp"
 #include "latentlift/settings.hpp"
@@ -25,29 +25,17 @@ using latentlift::ColumnAnalyzer;
 using latentlift::ColumnResult;
 using latentlift::test::OwnedColumn;
 
-const std::vector<OwnedColumn>& pool(int levels_case) {
-  static const std::vector<OwnedColumn> full = [] {
-    std::mt19937 rng(424242u);
-    std::vector<OwnedColumn> out;
-    for (int i = 0; i < 4096; ++i) out.push_back(latentlift::test::random_column(rng, latentlift::test::era5_levels_hpa()));
-    return out;
-  }();
-  static const std::vector<OwnedColumn> to100 = [] {
-    std::mt19937 rng(434343u);
-    std::vector<OwnedColumn> out;
-    for (int i = 0; i < 4096; ++i) out.push_back(latentlift::test::random_column(rng, latentlift::test::era5_levels_to_100_hpa()));
-    return out;
-  }();
-  return levels_case == 37 ? full : to100;
-}
+const std::vector<OwnedColumn>& pool(int levels_case) { return latentlift::bench::column_pool(levels_case); }
 
 // args: 0 = buoyancy (0 virtual, 1 temperature), 1 = level fields (0/1), 2 = levels (37 or 27),
-// 3 = CAPE/CIN sub-steps per layer (0: the default of AnalysisSettings)
+// 3 = CAPE/CIN sub-steps per layer (0: the default of AnalysisSettings),
+// 4 = MU parcel rule (0 max_cape, the default; 1 max_theta_w)
 void BM_AnalyzeColumn(benchmark::State& state) {
   AnalysisSettings s;
   s.buoyancy = state.range(0) == 0 ? BuoyancyMode::virtual_temperature : BuoyancyMode::temperature;
   s.level_fields = state.range(1) != 0;
   if (state.range(3) > 0) s.cape_substeps = static_cast<int>(state.range(3));
+  s.mu_parcel = state.range(4) == 0 ? latentlift::MuParcelRule::max_cape : latentlift::MuParcelRule::max_theta_w;
   const auto& columns = pool(static_cast<int>(state.range(2)));
   latentlift::pseudoadiabat::Table::instance();  // build the table outside the timing
   ColumnAnalyzer analyzer(s);
@@ -71,20 +59,24 @@ void BM_AnalyzeColumn(benchmark::State& state) {
                                                        benchmark::Counter::kIsRate);
   state.SetLabel(std::string(latentlift::to_string(s.buoyancy)) + (s.level_fields ? " +level fields" : " 2-D") +
                  ", " + std::to_string(state.range(2)) + " levels" +
-                 (state.range(3) > 0 ? ", cape_substeps " + std::to_string(state.range(3)) : ""));
+                 (state.range(3) > 0 ? ", cape_substeps " + std::to_string(state.range(3)) : "") +
+                 ", " + latentlift::to_string(s.mu_parcel));
 }
 
 BENCHMARK(BM_AnalyzeColumn)
-    ->ArgNames({"temperature_mode", "level_fields", "levels", "cape_substeps"})
-    ->Args({0, 0, 37, 0})
-    ->Args({0, 1, 37, 0})
-    ->Args({1, 0, 37, 0})
-    ->Args({1, 1, 37, 0})
-    ->Args({0, 0, 27, 0})
+    ->ArgNames({"temperature_mode", "level_fields", "levels", "cape_substeps", "theta_w_rule"})
+    ->Args({0, 0, 37, 0, 0})
+    ->Args({0, 1, 37, 0, 0})
+    ->Args({1, 0, 37, 0, 0})
+    ->Args({1, 1, 37, 0, 0})
+    ->Args({0, 0, 27, 0, 0})
+    // the MU parcel chosen by theta_w (one explicit ascent per column at most)
+    ->Args({0, 0, 37, 0, 1})
+    ->Args({1, 0, 37, 0, 1})
     // sensitivity of the main case to the CAPE/CIN sub-steps (METHODS: halving them
     // must change CAPE by < 0.5 %; tests/column checks the default)
-    ->Args({0, 0, 37, 1})
-    ->Args({0, 0, 37, 2})
+    ->Args({0, 0, 37, 1, 0})
+    ->Args({0, 0, 37, 2, 0})
     ->Unit(benchmark::kNanosecond);
 
 }  // namespace

@@ -1,16 +1,39 @@
 #!/usr/bin/env bash
 # Build the column-kernel benchmark (Release) and run it: columns per second per
 # CPU core for 37-level ERA5-like columns, both buoyancy modes, with and without
-# level fields. Target (issue 2): >= 300,000 columns/s per core, virtual mode, 2-D.
-# Usage: scripts/bench_kernel.sh [build-dir] [extra Google Benchmark options...]
+# level fields, both MU parcel rules. Target (issue 2): >= 300,000 columns/s per
+# core, virtual mode, 2-D.
+# With --instructions, instead count the instructions per column with callgrind
+# (valgrind): 2 x 4096 pool columns per case, repeatable on a loaded machine.
+# Usage: scripts/bench_kernel.sh [--instructions] [build-dir] [extra Google Benchmark options...]
 #        (default build dir: build-bench; e.g. --benchmark_min_time=2)
 set -euo pipefail
 here=$(cd "$(dirname "$0")/.." && pwd)
+instructions=0
+if [ "${1:-}" = "--instructions" ]; then instructions=1; shift; fi
 build=${1:-"$here/build-bench"}
 shift $(( $# > 0 ? 1 : 0 ))
 target_cols_per_s=300000
 
 cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release -DLATENTLIFT_BUILD_BENCH=ON >/dev/null
+if [ "$instructions" = 1 ]; then
+  command -v valgrind >/dev/null || { echo "bench_kernel: valgrind not found (scripts/setup.sh installs it)" >&2; exit 1; }
+  cmake --build "$build" -j 2 --target count_column >/dev/null
+  printf '%-44s %22s\n' "case (37 levels, 2 x 4096 columns)" "instructions/column"
+  for mode in virtual temperature; do
+    for rule in max_cape max_theta_w; do
+      for extra in "" level_fields; do
+        out=$(valgrind --tool=callgrind --callgrind-out-file=/dev/null \
+              --toggle-collect='latentlift::ColumnAnalyzer::analyze(*' \
+              "$build/bench/count_column" "$mode" "$rule" $extra 2>&1)
+        ir=$(printf '%s\n' "$out" | sed -n 's/.*Collected : \([0-9]*\).*/\1/p' | tail -1)
+        [ -n "$ir" ] || { echo "bench_kernel: no callgrind count for $mode $rule $extra: $out" >&2; exit 1; }
+        printf '%-44s %22s\n' "$mode, ${extra:-2-D}, $rule" "$(( ir / 8192 ))"
+      done
+    done
+  done
+  exit 0
+fi
 cmake --build "$build" -j 2 --target bench_column >/dev/null
 bin="$build/bench/bench_column"
 [ -x "$bin" ] || { echo "bench_kernel: $bin not built (is Google Benchmark, libbenchmark-dev, installed?)" >&2; exit 1; }

@@ -12,7 +12,7 @@ packages=(build-essential cmake pkg-config
   libnetcdf-dev libnetcdf-c++4-dev netcdf-bin
   libproj-dev proj-bin proj-data
   libudunits2-dev libtomlplusplus-dev libcli11-dev libpng-dev
-  libgtest-dev libgmock-dev libbenchmark-dev
+  libgtest-dev libgmock-dev libbenchmark-dev valgrind
   libopenmpi-dev openmpi-bin
   ccache gdal-bin python3 python3-numpy python3-scipy python3-netcdf4)
 
