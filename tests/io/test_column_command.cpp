@@ -66,6 +66,27 @@ TEST(ColumnInputs, SurfacePressureFromASecondFileMarksLevelsBelowGround) {
   EXPECT_EQ(line_500.find(",,"), std::string::npos) << "500 hPa is above ground: " << line_500;
 }
 
+TEST(ColumnInputs, MuParcelRuleFromSetChoosesTheParcel) {
+  // Real NCEP GFS output (as above), 57.5 N 40 W, 15 January 2011 12 UTC: a latently
+  // unstable layer near the sea surface under warm, dry air at 700 hPa, the top of the
+  // source layer. The default rule (largest CAPE of the flagged parcels) takes a low
+  // parcel, latently unstable; max_theta_w takes the dry 700 hPa parcel, class none
+  // (METHODS "Parcels, free convection and the lift needed").
+  const std::string dir = test::real_data_dir() + "/ncep-nwp-pressure-levels/derived-netcdf/";
+  const std::string pl = dir + "gfs_2p5deg_20110110_12z_f120_pl_t_gh_r.nc";
+  const std::string sfc = dir + "gfs_2p5deg_20110110_12z_f120_sfc_sp_orog_cape_cin.nc";
+  if (!std::ifstream(pl) || !std::ifstream(sfc)) GTEST_SKIP() << "shared real data not found at " << dir;
+  const std::string cmd = test::binary() + " column " + pl + " " + sfc + " --lat 57.5 --lon -40 --format csv";
+  test::CommandResult cape = run_command(cmd);
+  ASSERT_EQ(cape.exit_code, 0) << cape.output;
+  EXPECT_EQ(cape.output.find("\nmu_pressure,700.00,"), std::string::npos) << cape.output;
+  EXPECT_EQ(cape.output.find("\nlatent_class,none,"), std::string::npos) << cape.output;
+  test::CommandResult theta = run_command(cmd + " --set analysis.mu_parcel=max_theta_w");
+  ASSERT_EQ(theta.exit_code, 0) << theta.output;
+  EXPECT_NE(theta.output.find("\nmu_pressure,700.00,"), std::string::npos) << theta.output;
+  EXPECT_NE(theta.output.find("\nlatent_class,none,"), std::string::npos) << theta.output;
+}
+
 TEST(ColumnFormats, UnknownFormatIsBadUsage) {
   test::CommandResult r = run_command(column("--lat 0 --lon 0 --format xml"));
   EXPECT_EQ(r.exit_code, 2) << r.output;
