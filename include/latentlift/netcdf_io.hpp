@@ -65,6 +65,15 @@ class InputDataset {
   /// Thread-safe (serialised on the netCDF lock); InputError when a read fails.
   void read_block(std::size_t step, ColumnRange range, ColumnBlock& block) const;
 
+  /// Decode step `step` ahead of read_block where the input is NetCDF-4 deflated (compressed
+  /// chunks read raw, inflated outside the netCDF lock): every thread calling it for the same
+  /// step shares the chunks; returns when all are decoded. No-op where netCDF-C reads the input.
+  void decode_step(std::size_t step) const;
+  /// Free the values decode_step kept for `step` (read_block of it reads the file again).
+  void release_step(std::size_t step) const;
+  /// Number of input variables read through decode_step rather than netCDF-C (0 to 4 per file set).
+  std::size_t directly_read_variables() const;
+
   /// Throw the InputError for a step whose temperature, humidity or height (flag false) is all missing.
   [[noreturn]] void throw_all_missing(std::size_t step, bool any_temp, bool any_humidity, bool any_height) const;
 

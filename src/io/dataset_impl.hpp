@@ -2,10 +2,13 @@
 #pragma once
 
 #include <cmath>
+#include <map>
 #include <memory>
+#include <mutex>
 #include <string>
 #include <vector>
 
+#include "io/chunk_reader.hpp"
 #include "io/netcdf_util.hpp"
 #include "io/units.hpp"
 #include "latentlift/netcdf_io.hpp"
@@ -30,7 +33,14 @@ struct VarRef {
   double valid_min = -HUGE_VAL, valid_max = HUGE_VAL;  // raw
   double scale = 1.0, offset = 0.0;  // SI = raw * scale + offset (unpacking, units and 1/g folded in)
   bool global_time = false;      // indexed by the time index over all files (not the segment's own)
+  std::shared_ptr<ChunkReader> direct;  // set when its chunks are read raw and inflated here (chunk_reader.hpp)
   bool present() const { return varid >= 0; }
+};
+
+/// The decoded slabs of one step's directly read variables (see InputDataset::decode_step).
+struct DecodedStep {
+  std::map<const VarRef*, DecodedSlab> slabs;
+  std::unique_ptr<SlabJob> job;
 };
 
 /// The variables of one run of time steps (one input file with temperature, plus split-off fields).
@@ -55,6 +65,10 @@ struct InputDataset::Impl {
   std::vector<std::string> horizontal_coordinates;  // 1-D coordinate variables of the horizontal dims
   std::vector<std::string> aux_coordinates;         // 2-D (or cell) lat/lon variables
   std::vector<std::string> outer_coordinates;       // per outer dim, coordinate variable or ""
+
+  // Steps decoded ahead by decode_step, until release_step.
+  mutable std::mutex decoded_mutex;
+  mutable std::map<std::size_t, std::shared_ptr<io::detail::DecodedStep>> decoded;
 
   const io::detail::Segment& segment_of_time(std::size_t time_index, std::size_t& local) const;
 };

@@ -126,12 +126,15 @@ class Runner {
 
   /// Analyse one input step into fields; level blocks go to level_sink (may be empty).
   /// block_sink(range), if given, runs on the I/O thread after each block (fields of range complete).
+  /// next_step (kNoStep: none) is decoded ahead while this step is analysed.
   void run_step(std::size_t step, std::size_t step_number, std::size_t n_steps, FieldSet& fields,
                 const std::function<void(const LevelFieldBlock&)>& level_sink,
-                const std::function<void(ColumnRange)>& block_sink = {}) {
+                const std::function<void(ColumnRange)>& block_sink = {}, std::size_t next_step = kNoStep) {
     try {
-      run_step_blocks(step, step_number, n_steps, fields, level_sink, block_sink);
+      run_step_blocks(step, step_number, n_steps, fields, level_sink, block_sink, next_step);
+      input_.release_step(step);
     } catch (...) {  // pending I/O tasks refer to this step's buffers: let them finish first
+      input_.release_step(step);
       if (reading_.valid()) reading_.wait();
       for (auto& w : level_writes_)
         if (w.valid()) w.wait();
@@ -142,17 +145,27 @@ class Runner {
     }
   }
 
+  static constexpr std::size_t kNoStep = static_cast<std::size_t>(-1);
   IoWorker& io() { return io_; }
   double input_wait_seconds = 0.0, output_wait_seconds = 0.0;
 
  private:
   void run_step_blocks(std::size_t step, std::size_t step_number, std::size_t n_steps, FieldSet& fields,
                        const std::function<void(const LevelFieldBlock&)>& level_sink,
-                       const std::function<void(ColumnRange)>& block_sink) {
+                       const std::function<void(ColumnRange)>& block_sink, std::size_t next_step) {
     std::future<void>& reading = reading_;
     prepare(fields, grid_.n_columns);
     const int nz = static_cast<int>(grid_.vertical.length);
     bool any_t = false, any_h = false, any_z = false;
+    {  // compressed inputs: every thread inflates this step's chunks (most are done if it was prefetched)
+      const auto start = std::chrono::steady_clock::now();
+      decode_on_all_threads(step);
+      input_wait_seconds += seconds_since(start);
+    }
+    if (next_step != kNoStep) {  // inflate the next step on the decoder thread while this one is analysed
+      if (prefetch_.valid()) prefetch_.wait();
+      prefetch_ = decoder_.submit([this, next_step] { input_.decode_step(next_step); });
+    }
     reading = io_.submit([&, step] { input_.read_block(step, blocks_[0], column_blocks_[0]); });
     std::size_t done = 0;
     for (std::size_t b = 0; b < blocks_.size(); ++b) {
@@ -185,6 +198,25 @@ class Runner {
     for (auto& w : block_writes_) timed_wait(w, output_wait_seconds);
     block_writes_.clear();
     if (!any_t || !any_h || !any_z) input_.throw_all_missing(step, any_t, any_h, any_z);
+  }
+
+  /// InputDataset::decode_step on every OpenMP thread (they share the chunks).
+  void decode_on_all_threads(std::size_t step) {
+    std::exception_ptr failure;
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel
+#endif
+    {
+      try {
+        input_.decode_step(step);
+      } catch (...) {
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp critical(latentlift_pipeline_failure)
+#endif
+        if (!failure) failure = std::current_exception();
+      }
+    }
+    if (failure) std::rethrow_exception(failure);
   }
 
   void prepare_levels(LevelFieldBlock& levels, ColumnRange range, int nz) {
@@ -270,6 +302,8 @@ class Runner {
   std::future<void> level_writes_[2];
   std::future<void> reading_;
   std::vector<std::future<void>> block_writes_;
+  std::future<void> prefetch_;
+  IoWorker decoder_;  // decodes the next step ahead (InputDataset::decode_step)
   IoWorker io_;  // last: joined first, before the buffers its tasks use go away
 };
 
@@ -308,11 +342,12 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
         FieldSet& current = fields[s % 2];
         timed_wait(writes[s % 2], summary.output_wait_seconds);
         auto level_sink = [&writer, s](const LevelFieldBlock& block) { writer.write_level_block(s, block); };
+        const std::size_t next = s + 1 < n ? writer.input_step(s + 1) : Runner::kNoStep;
         if (writer.writes_by_block()) {  // maps written band by band while the analysis goes on
           auto block_sink = [&writer, &current, s](ColumnRange range) { writer.write_fields_block(s, range, current); };
-          runner.run_step(writer.input_step(s), s, n, current, level_sink, block_sink);
+          runner.run_step(writer.input_step(s), s, n, current, level_sink, block_sink, next);
         } else {  // one chunk per map: written whole, while the next step is analysed
-          runner.run_step(writer.input_step(s), s, n, current, level_sink);
+          runner.run_step(writer.input_step(s), s, n, current, level_sink, {}, next);
           writes[s % 2] = runner.io().submit([&writer, &current, s] { writer.write_fields(s, current); });
         }
         summary.qc.add(current.qc);
@@ -361,7 +396,8 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
   const std::vector<std::size_t> steps = steps_of_times(grid, options.time_indices);
   for (std::size_t i = 0; i < steps.size(); ++i) {
     if (options.level_fields) fields.stability_class_levels.assign(nz * grid.n_columns, kByteMissing);
-    runner.run_step(steps[i], i, steps.size(), fields, level_sink);
+    runner.run_step(steps[i], i, steps.size(), fields, level_sink, {},
+                    i + 1 < steps.size() ? steps[i + 1] : Runner::kNoStep);
     summary.qc.add(fields.qc);
     consumer(steps[i], fields);
   }

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstring>
 #include <limits>
+#include <map>
 #include <set>
 #include <sstream>
 
@@ -301,6 +302,33 @@ const Segment& InputDataset::Impl::segment_of_time(std::size_t time_index, std::
 }
 
 namespace {
+
+/// Give the float variables of NetCDF-4 files a ChunkReader where it knows their storage
+/// (deflate/shuffle, chunked); the others stay with netCDF-C. Called with the netCDF lock held.
+void attach_chunk_readers(InputDataset::Impl& impl) {
+  std::map<std::pair<int, int>, std::shared_ptr<d::ChunkReader>> made;  // (file, varid): one reader each
+  for (Segment& segment : impl.segments)
+    for (VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
+      if (!var->present() || (var->type != NC_FLOAT && var->type != NC_DOUBLE)) continue;
+      auto key = std::make_pair(var->file, var->varid);
+      auto it = made.find(key);
+      if (it == made.end()) {
+        int format = 0;
+        std::shared_ptr<d::ChunkReader> reader;
+        const NcFile& file = impl.files[var->file];
+        if (nc_inq_format(file.id(), &format) == NC_NOERR &&
+            (format == NC_FORMAT_NETCDF4 || format == NC_FORMAT_NETCDF4_CLASSIC)) {
+          std::vector<bool> outer_dims;
+          for (DimRole role : var->roles) outer_dims.push_back(role == DimRole::outer);
+          reader = std::make_shared<d::ChunkReader>(file.path(), var->name, var->shape.lengths, outer_dims,
+                                                    var->type == NC_FLOAT);
+          if (!reader->supports()) reader.reset();
+        }
+        it = made.emplace(key, reader).first;
+      }
+      var->direct = it->second;
+    }
+}
 
 /// Attach the grid roles of a variable's dimensions, checking it lies on the dataset's grid.
 void bind_to_grid(InputDataset::Impl& impl, VarRef& var, bool need_vertical) {
@@ -643,6 +671,8 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
           throw InputError(b.path(), var->name, "the same times as " + a.path());
       }
   }
+  // 7. NetCDF-4 deflated variables: their chunks are read raw and inflated on every core.
+  attach_chunk_readers(impl);
 }
 
 InputDataset::~InputDataset() = default;
@@ -703,11 +733,26 @@ bool scatter(const Raw* raw, const VarRef& var, std::size_t level_stride, std::s
 }
 
 /// Read one variable's hyperslab and scatter it, converted to SI, into dst[column * column_stride + level].
+/// Start of a variable's hyperslab along its outer dimensions at one step (0 elsewhere).
+std::vector<std::size_t> outer_start(const InputDataset::Impl& impl, const VarRef& var, std::size_t local_time,
+                                     const std::vector<std::size_t>& outer_index) {
+  std::vector<std::size_t> start(var.shape.names.size(), 0);
+  for (std::size_t i = 0; i < start.size(); ++i)
+    if (var.roles[i] == DimRole::outer && var.grid_dim[i] >= 0) {
+      const int o = var.grid_dim[i];
+      start[i] = (o != impl.time_outer) ? outer_index[o] : var.global_time ? outer_index[o] : local_time;
+    }
+  return start;
+}
+
+/// Read one variable's hyperslab (or take it from its decoded slab at this step, when given)
+/// and scatter it, converted to SI, into dst[column * column_stride + level].
 void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t local_time,
               const std::vector<std::size_t>& outer_index, std::size_t row0, std::size_t nrows, std::size_t col0,
-              std::size_t ncols, std::size_t column_stride, double* dst, bool& any_valid) {
+              std::size_t ncols, std::size_t column_stride, double* dst, bool& any_valid,
+              const d::DecodedSlab* slab = nullptr) {
   const std::size_t ndims = var.shape.names.size();
-  std::vector<size_t> start(ndims, 0), count(ndims, 1);
+  std::vector<size_t> start = outer_start(impl, var, local_time, outer_index), count(ndims, 1);
   const bool two_d = impl.grid.horizontal.size() == 2;
   int vertical = -1, row_dim = -1, col_dim = -1;
   for (std::size_t i = 0; i < ndims; ++i) {
@@ -728,18 +773,16 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
         }
         break;
       case DimRole::outer:
-        if (var.grid_dim[i] >= 0) {
-          const int o = var.grid_dim[i];
-          start[i] = (o != impl.time_outer) ? outer_index[o] : var.global_time ? outer_index[o] : local_time;
-        }
         break;
     }
   }
+  // Strides of the raw values: the hyperslab read, or the whole slab of the step (base: its start).
   std::vector<std::size_t> raw_stride(ndims, 1);
-  std::size_t total = 1;
+  std::size_t total = 1, base = 0;
   for (std::size_t i = ndims; i-- > 0;) {
     raw_stride[i] = total;
-    total *= count[i];
+    if (slab && var.roles[i] != DimRole::outer) base += start[i] * total;
+    total *= slab ? (var.roles[i] == DimRole::outer ? 1 : var.shape.lengths[i]) : count[i];
   }
   const std::size_t n_levels = vertical >= 0 ? count[vertical] : 1;
   const std::size_t level_stride = vertical >= 0 ? raw_stride[vertical] : 0;
@@ -748,8 +791,15 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
   std::vector<std::size_t>& offsets = t_offsets;
   offsets.resize(nrows * ncols);
   for (std::size_t r = 0; r < nrows; ++r)
-    for (std::size_t x = 0; x < ncols; ++x) offsets[r * ncols + x] = r * row_stride + x * col_stride;
+    for (std::size_t x = 0; x < ncols; ++x) offsets[r * ncols + x] = base + r * row_stride + x * col_stride;
 
+  if (slab) {
+    const bool valid = slab->is_float
+                           ? scatter(slab->floats.data(), var, level_stride, n_levels, offsets, column_stride, dst)
+                           : scatter(slab->doubles.data(), var, level_stride, n_levels, offsets, column_stride, dst);
+    any_valid = any_valid || valid;
+    return;
+  }
   const NcFile& file = impl.files[var.file];
   const bool as_float = var.type == NC_FLOAT;
   {
@@ -808,16 +858,79 @@ void InputDataset::read_block(std::size_t step, ColumnRange range, ColumnBlock& 
   block.height_m.resize(n);
   bool any_ps = false;
   block.any_temp = block.any_humidity = block.any_height = false;
-  read_var(impl, segment.temp, local, outer, row0, nrows, col0, ncols, nz, block.temp_k.data(), block.any_temp);
-  read_var(impl, segment.humidity, local, outer, row0, nrows, col0, ncols, nz, block.humidity.data(), block.any_humidity);
-  read_var(impl, segment.height, local, outer, row0, nrows, col0, ncols, nz, block.height_m.data(), block.any_height);
+  std::shared_ptr<d::DecodedStep> decoded;
+  {
+    std::lock_guard<std::mutex> lock(impl.decoded_mutex);
+    auto it = impl.decoded.find(step);
+    if (it != impl.decoded.end()) decoded = it->second;
+  }
+  if (decoded) decoded->job->help_and_wait();  // normally finished already
+  auto slab_of = [&](const VarRef& var) -> const d::DecodedSlab* {
+    if (!decoded) return nullptr;
+    auto it = decoded->slabs.find(&var);
+    return it == decoded->slabs.end() ? nullptr : &it->second;
+  };
+  read_var(impl, segment.temp, local, outer, row0, nrows, col0, ncols, nz, block.temp_k.data(), block.any_temp,
+           slab_of(segment.temp));
+  read_var(impl, segment.humidity, local, outer, row0, nrows, col0, ncols, nz, block.humidity.data(),
+           block.any_humidity, slab_of(segment.humidity));
+  read_var(impl, segment.height, local, outer, row0, nrows, col0, ncols, nz, block.height_m.data(), block.any_height,
+           slab_of(segment.height));
   if (segment.surface_pressure.present()) {
     block.surface_pressure_pa.resize(range.count);
     read_var(impl, segment.surface_pressure, local, outer, row0, nrows, col0, ncols, 1,
-             block.surface_pressure_pa.data(), any_ps);
+             block.surface_pressure_pa.data(), any_ps, slab_of(segment.surface_pressure));
   } else {
     block.surface_pressure_pa.clear();
   }
+}
+
+void InputDataset::decode_step(std::size_t step) const {
+  const Impl& impl = *impl_;
+  if (step >= impl.grid.n_steps) throw Error("decode_step: step outside the grid");
+  std::shared_ptr<d::DecodedStep> decoded;
+  {
+    std::lock_guard<std::mutex> lock(impl.decoded_mutex);
+    auto it = impl.decoded.find(step);
+    if (it != impl.decoded.end()) {
+      decoded = it->second;
+    } else {
+      std::vector<std::size_t> outer = step_indices(impl.grid, step);
+      std::size_t local = 0;
+      const Segment& segment =
+          impl.segment_of_time(impl.time_outer >= 0 ? outer[impl.time_outer] : 0, local);
+      auto created = std::make_shared<d::DecodedStep>();
+      std::vector<d::SlabJob::Part> parts;
+      for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
+        if (!var->present() || !var->direct) continue;
+        std::vector<std::size_t> start = outer_start(impl, *var, local, outer), outer_of_var;
+        for (std::size_t i = 0; i < start.size(); ++i)
+          if (var->roles[i] == DimRole::outer) outer_of_var.push_back(start[i]);
+        parts.push_back({var->direct.get(), outer_of_var, &created->slabs[var]});
+      }
+      if (parts.empty()) return;  // netCDF-C reads this step
+      created->job = std::make_unique<d::SlabJob>(std::move(parts));
+      impl.decoded[step] = decoded = created;
+    }
+  }
+  decoded->job->help_and_wait();
+}
+
+void InputDataset::release_step(std::size_t step) const {
+  std::shared_ptr<d::DecodedStep> released;  // freed outside the lock
+  std::lock_guard<std::mutex> lock(impl_->decoded_mutex);
+  auto it = impl_->decoded.find(step);
+  if (it == impl_->decoded.end()) return;
+  released = std::move(it->second);
+  impl_->decoded.erase(it);
+}
+
+std::size_t InputDataset::directly_read_variables() const {
+  std::set<std::pair<int, int>> found;
+  for (const Segment& segment : impl_->segments)
+    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure})
+      if (var->present() && var->direct) found.insert({var->file, var->varid});
+  return found.size();
 }
 
 void InputDataset::prepare_block_reads(std::size_t block_columns) const {
@@ -833,7 +946,7 @@ void InputDataset::prepare_block_reads(std::size_t block_columns) const {
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
   for (const Segment& segment : impl.segments)
     for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
-      if (!var->present()) continue;
+      if (!var->present() || var->direct) continue;  // read raw by chunk_reader: no netCDF cache needed
       const int ncid = impl.files[var->file].id();
       const std::size_t ndims = var->shape.lengths.size();
       int storage = 0;

@@ -32,6 +32,8 @@ struct Var {
   std::vector<double> data;     // in the variable's dimension order (empty: leave unwritten)
   std::vector<size_t> chunks;   // NetCDF-4 chunk sizes (empty: library default)
   int deflate_level = 0;        // NetCDF-4 deflate level (0: none)
+  bool shuffle = true;          // with deflate_level > 0: the shuffle filter too
+  bool fletcher32 = false;      // NetCDF-4 Fletcher-32 checksums
 };
 
 using Dims = std::vector<std::pair<std::string, std::size_t>>;
@@ -80,7 +82,9 @@ inline void write_nc(const std::string& path, const Dims& dims, const std::vecto
     int id = -1;
     nc_ok(nc_def_var(ncid, v.name.c_str(), v.type, static_cast<int>(ids.size()), ids.data(), &id), "var " + v.name);
     if (!v.chunks.empty()) nc_ok(nc_def_var_chunking(ncid, id, NC_CHUNKED, v.chunks.data()), "chunking " + v.name);
-    if (v.deflate_level > 0) nc_ok(nc_def_var_deflate(ncid, id, 1, 1, v.deflate_level), "deflate " + v.name);
+    if (v.deflate_level > 0)
+      nc_ok(nc_def_var_deflate(ncid, id, v.shuffle ? 1 : 0, 1, v.deflate_level), "deflate " + v.name);
+    if (v.fletcher32) nc_ok(nc_def_var_fletcher32(ncid, id, NC_FLETCHER32), "fletcher32 " + v.name);
     for (const Att& a : v.atts) {
       if (a.numbers.empty())
         nc_ok(nc_put_att_text(ncid, id, a.name.c_str(), a.text.size(), a.text.c_str()), "att " + a.name);

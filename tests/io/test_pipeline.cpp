@@ -41,20 +41,26 @@ class Pipeline : public ::testing::Test {
     vars.push_back(g.var("r", "relative_humidity", "%", rh));
     vars.push_back(g.var("gh", "geopotential_height", "m", z));
     test::write_nc(input_path, g.dims, vars);
+    for (std::size_t v = 4; v < 7; ++v) {  // the same values deflated, one chunk per level map
+      vars[v].chunks = {1, 1, 5, 7};
+      vars[v].deflate_level = 1;
+    }
+    test::write_nc(deflated_path, g.dims, vars);
     config = load_config("", {});
   }
-  std::vector<FieldSet> in_memory(int threads, std::size_t block_columns) {
+  std::vector<FieldSet> in_memory(int threads, std::size_t block_columns, const std::string& path = "") {
     PipelineOptions options;
     options.config = config;
     options.config.block_columns = block_columns;
     options.threads = threads;
-    InputDataset input({input_path}, config.aliases);
+    InputDataset input({path.empty() ? input_path : path}, config.aliases);
     std::vector<FieldSet> out;
     analyze_in_memory(input, options, [&](std::size_t, const FieldSet& f) { out.push_back(f); });
     return out;
   }
   std::string dir = test::scratch_dir(::testing::UnitTest::GetInstance()->current_test_info()->name());
   std::string input_path = dir + "/in.nc";
+  std::string deflated_path = dir + "/in_deflated.nc";  // read by chunk_reader, steps decoded ahead
   RunConfig config;
 };
 
@@ -96,6 +102,12 @@ TEST_F(Pipeline, ResultsAreBitwiseIndependentOfThreadCountAndBlockSize) {
   EXPECT_TRUE(same_bits(one, in_memory(2, 1000)));
   EXPECT_TRUE(same_bits(one, in_memory(2, 3)));
   EXPECT_TRUE(same_bits(one, in_memory(1, 7)));
+}
+
+TEST_F(Pipeline, DeflatedInputDecodedAheadGivesBitwiseTheResultsOfUncompressedInput) {
+  std::vector<FieldSet> plain = in_memory(1, 1000);
+  EXPECT_TRUE(same_bits(plain, in_memory(1, 1000, deflated_path)));
+  EXPECT_TRUE(same_bits(plain, in_memory(2, 3, deflated_path)));
 }
 
 TEST_F(Pipeline, TheFileHoldsWhatTheInMemoryApiReturns) {
