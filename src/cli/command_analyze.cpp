@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
+#include <future>
 #include <string>
 #include <vector>
 
@@ -13,6 +14,7 @@
 #include "latentlift/errors.hpp"
 #include "latentlift/parallel.hpp"
 #include "latentlift/pipeline.hpp"
+#include "latentlift/pseudoadiabat.hpp"
 
 namespace latentlift::cli {
 
@@ -48,6 +50,12 @@ int run_analyze(const AnalyzeArgs& args) {
                    p.columns_done, p.n_columns, 100.0 * p.columns_done / std::max<std::size_t>(1, p.n_columns));
       std::fflush(stderr);
     };
+  // The pseudo-adiabat tables are built (on the analysis threads) while input and output are opened.
+  const int threads = options.threads > 0 ? options.threads : options.config.threads;
+  std::future<void> tables = std::async(std::launch::async, [threads] {
+    parallel::set_threads(threads);
+    pseudoadiabat::Table::instance();
+  });
   InputDataset input(args.inputs, options.config.aliases);
   OutputOptions output_options;
   output_options.overwrite = args.overwrite;

@@ -152,6 +152,10 @@ Table::Table() {
   tv_of_theta_.assign(static_cast<size_t>(nt) * np, 0.0);
   // Reference node nearest above 1000 hPa; integrate outwards from 1000 hPa in both directions.
   const int j_ref = static_cast<int>(std::floor((kLnReference - x0) / kLnpStep));
+  // Every node is computed on its own, so the tables do not depend on the thread count.
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(dynamic, 8)
+#endif
   for (int i = 0; i < nt; ++i) {
     const double theta = theta_.x0 + i * theta_.dx;
     double t = theta, x = kLnReference;
@@ -170,6 +174,9 @@ Table::Table() {
       t_of_theta_[static_cast<size_t>(j) * nt + i] = t;
     }
   }
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(static)
+#endif
   for (int j = 0; j < np; ++j) {
     const double p = std::exp(x0 + j * kLnpStep);
     for (int i = 0; i < nt; ++i) {
@@ -181,6 +188,9 @@ Table::Table() {
   const int nT = temp_.nx;
   theta_of_t_.assign(static_cast<size_t>(nT) * np, 0.0);
   theta_of_tv_.assign(static_cast<size_t>(nT) * np, 0.0);
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel for schedule(dynamic, 4)
+#endif
   for (int j = 0; j < np; ++j) {
     const double* row_t = &t_of_theta_[static_cast<size_t>(j) * nt];
     const double* row_tv = &tv_of_theta_[static_cast<size_t>(j) * nt];
