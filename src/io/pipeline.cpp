@@ -78,6 +78,23 @@ void timed_wait(std::future<void>& f, double& seconds) {
   seconds += seconds_since(start);
 }
 
+/// The first exception thrown inside an OpenMP region (an exception must not leave one).
+class FirstFailure {
+ public:
+  void capture() {  // call from a catch block
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp critical(latentlift_pipeline_failure)
+#endif
+    if (!failure_) failure_ = std::current_exception();
+  }
+  void rethrow() const {
+    if (failure_) std::rethrow_exception(failure_);
+  }
+
+ private:
+  std::exception_ptr failure_;
+};
+
 /// Scalar results of one column, in the order of real_field_names(), in output units.
 inline void scalar_values(const ColumnResult& r, float* v) {
   v[0] = static_cast<float>(r.latent_layer_depth_pa * kHpaPerPa);
@@ -202,7 +219,7 @@ class Runner {
 
   /// InputDataset::decode_step on every OpenMP thread (they share the chunks).
   void decode_on_all_threads(std::size_t step) {
-    std::exception_ptr failure;
+    FirstFailure failure;
 #ifdef LATENTLIFT_HAVE_OPENMP
 #pragma omp parallel
 #endif
@@ -210,13 +227,10 @@ class Runner {
       try {
         input_.decode_step(step);
       } catch (...) {
-#ifdef LATENTLIFT_HAVE_OPENMP
-#pragma omp critical(latentlift_pipeline_failure)
-#endif
-        if (!failure) failure = std::current_exception();
+        failure.capture();
       }
     }
-    if (failure) std::rethrow_exception(failure);
+    failure.rethrow();
   }
 
   void prepare_levels(LevelFieldBlock& levels, ColumnRange range, int nz) {
@@ -272,7 +286,7 @@ class Runner {
         }
       }
     };
-    std::exception_ptr failure;  // an exception must not leave an OpenMP region: keep the first one
+    FirstFailure failure;
 #ifdef LATENTLIFT_HAVE_OPENMP
 #pragma omp parallel for schedule(dynamic, 64)
 #endif
@@ -280,13 +294,10 @@ class Runner {
       try {
         analyze_one(i);
       } catch (...) {
-#ifdef LATENTLIFT_HAVE_OPENMP
-#pragma omp critical(latentlift_pipeline_failure)
-#endif
-        if (!failure) failure = std::current_exception();
+        failure.capture();
       }
     }
-    if (failure) std::rethrow_exception(failure);
+    failure.rethrow();
     for (long i = 0; i < count; ++i) fields.qc.add(results_[i].qc);  // integer sums: order-independent
   }
 
