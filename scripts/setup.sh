@@ -10,6 +10,7 @@ for t in "$@"; do targets+=(--target "$t"); done
 
 packages=(build-essential cmake pkg-config
   libnetcdf-dev libnetcdf-c++4-dev netcdf-bin libhdf5-dev libdeflate-dev
+  libeccodes-dev libeccodes-tools cdo
   libproj-dev proj-bin proj-data
   libudunits2-dev libtomlplusplus-dev libcli11-dev libpng-dev
   libgtest-dev libgmock-dev libbenchmark-dev valgrind

@@ -14,6 +14,7 @@ namespace latentlift {
 struct RunConfig {
   AnalysisSettings analysis;         // [analysis], SI units
   InputAliases aliases;              // [input]: variable names per quantity
+  InputConventions conventions;      // [input]: require_surface_pressure, relative_humidity_over, mixed_phase_*
   std::size_t block_columns = 65536; // [run] block_columns: columns read and analysed at a time
   int threads = 0;                   // [run] threads: 0 = all cores (--threads overrides)
   int deflate_level = 1;             // [output] deflate_level: 0 (off) to 9

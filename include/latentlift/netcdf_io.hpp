@@ -13,13 +13,25 @@
 
 #include "latentlift/column.hpp"
 #include "latentlift/grid.hpp"
+#include "latentlift/thermo.hpp"
 
 namespace latentlift {
 
 /// Variable names to try, per quantity, after the CF standard_name. Keys: air_temperature,
 /// specific_humidity, relative_humidity, dew_point_temperature, humidity_mixing_ratio,
-/// geopotential, geopotential_height, surface_air_pressure.
+/// geopotential, geopotential_height, surface_air_pressure, surface_altitude, surface_geopotential.
 using InputAliases = std::map<std::string, std::vector<std::string>>;
+
+/// Conventions of the input beyond variable names (config section [input]).
+struct InputConventions {
+  bool require_surface_pressure = false;  // no surface pressure nor surface height: InputError
+  thermo::SaturationReference relative_humidity_over = thermo::SaturationReference::water;
+  thermo::MixedPhase mixed_phase;         // thresholds of relative_humidity_over = mixed
+};
+
+/// Where the surface pressure of the columns comes from (global attribute surface_pressure_source).
+enum class SurfacePressureSource { input, derived_from_surface_geopotential, none };
+const char* to_string(SurfacePressureSource source);
 
 /// One block of columns in SI units, [column][level] (levels in the input's order), NaN = missing.
 struct ColumnBlock {
@@ -32,6 +44,9 @@ struct ColumnBlock {
   std::vector<double> surface_pressure_pa;  // per column, Pa; empty without surface pressure
   bool any_temp = false, any_humidity = false, any_height = false;  // any value not missing
 };
+
+/// True when the file holds GRIB (edition 1 or 2), recognised by content, not by its name.
+bool is_grib_input(const std::string& path);
 
 /// Which variable of which file supplies a quantity.
 struct QuantitySource {
@@ -46,7 +61,8 @@ class InputDataset {
  public:
   /// Open the files: several time steps of one grid (concatenated along time) and/or
   /// fields split across files. Throws InputError naming file, variable and expectation.
-  InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases);
+  InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases,
+               const InputConventions& conventions = {});
   ~InputDataset();
   InputDataset(const InputDataset&) = delete;
   InputDataset& operator=(const InputDataset&) = delete;
@@ -54,8 +70,17 @@ class InputDataset {
   const GridDescription& grid() const;
   HumidityKind humidity_kind() const;
   const std::vector<std::string>& paths() const;
-  /// The variables used, one per quantity (temperature, humidity, geopotential, surface pressure).
+  /// The variables used, one per quantity (temperature, humidity, geopotential, surface pressure
+  /// or the surface height it is derived from).
   std::vector<QuantitySource> sources() const;
+  /// Surface pressure read, derived from surface geopotential/orography (ln p interpolation of the
+  /// column's heights, thermo::surface_pressure_from_height_pa), or none (below-ground levels analysed).
+  SurfacePressureSource surface_pressure_source() const;
+  /// When quantities come on different pressure levels: which levels each has and that the
+  /// analysis uses the common ones (one line); "" when every quantity has the same levels.
+  const std::string& common_levels_note() const;
+  /// The NetCDF file holding the grid coordinates (for GRIB input: the staged NetCDF file).
+  std::string grid_netcdf_path() const;
 
   /// Size the chunk caches of compressed/chunked inputs so that reading blocks of this many
   /// columns decompresses each chunk once per step (capped at 256 MiB per variable).

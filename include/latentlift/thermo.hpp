@@ -20,6 +20,35 @@ double latent_heat_vaporisation(double temp_k);
 /// Saturation vapour pressure over liquid water, Pa (Bolton 1980, eq. 10).
 double saturation_vapour_pressure_pa(double temp_k);
 
+/// Saturation vapour pressure over ice, Pa, for temp_k > 110 K (Murphy and Koop 2005, eq. 7).
+double saturation_vapour_pressure_ice_pa(double temp_k);
+
+/// What a relative humidity is relative to: liquid water (WMO definition), ice below 0 degC,
+/// or a blend between cold_k (ice) and warm_k (water) as a producing centre defines it.
+enum class SaturationReference { water, ice_below_freezing, mixed };
+/// The blend of `mixed`: weight of water w = ((T - cold_k) / (warm_k - cold_k))^exponent.
+struct MixedPhase {
+  double cold_k = 250.16;   // T_ice of ECMWF IFS Documentation Cy47r3, Part IV: Physical Processes, ch. 12
+  double warm_k = 273.16;   // T_0, same source (alpha = ((T - T_ice) / (T_0 - T_ice))^2)
+  double exponent = 2.0;    // 2: ECMWF IFS (quadratic); 1: NCEP GFS funcphys fpvsx (linear)
+};
+
+/// Saturation vapour pressure, Pa, that a relative humidity of `reference` refers to: Bolton eq. 10
+/// over water, Murphy and Koop eq. 7 over ice, e = w e_water + (1 - w) e_ice in between for mixed.
+double saturation_vapour_pressure_reference_pa(double temp_k, SaturationReference reference,
+                                               const MixedPhase& mixed = {});
+
+/// Relative humidity over liquid water (fraction) of relative humidity rh (fraction) given w.r.t. `reference`.
+double relative_humidity_over_water(double rh, double temp_k, SaturationReference reference,
+                                    const MixedPhase& mixed = {});
+
+/// Surface pressure, Pa, at geopotential height surface_height_m from a column's levels (any order,
+/// NaN skipped): linear in ln p between the levels around it; below the lowest level along the
+/// ICAO standard-atmosphere lapse rate 6.5 K/km from that level's temperature (ISO 2533:1975,
+/// p = p0 (T/T0)^(g0 / (R gamma))); NaN above the highest level or with fewer than one level.
+double surface_pressure_from_height_pa(int n_levels, const double* pressure_pa, const double* height_m,
+                                       const double* temp_k, double surface_height_m);
+
 /// Dew point (K) of vapour pressure e_pa: exact inverse of Bolton eq. 10.
 double dew_point_k(double vapour_pressure_pa);
 

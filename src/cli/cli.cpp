@@ -22,6 +22,10 @@ int run(int argc, char** argv) {
   add_climatology_command(app, exit_code);
   add_reproject_command(app, exit_code);
   add_quicklook_command(app, exit_code);
+  if (argc <= 1) {  // bare `latentlift`: the usage, not only "a subcommand is required"
+    std::fputs(app.help().c_str(), stderr);
+    return 2;
+  }
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -40,6 +40,7 @@ int run_analyze(const AnalyzeArgs& args) {
   options.config = load_config(args.config, args.sets);
   options.level_fields = args.level_fields;
   options.threads = args.threads;
+  if (args.threads == 0) options.config.threads = 0;  // --threads 0: all cores, whatever the config says
   const bool progress = !args.quiet && isatty(fileno(stderr));
   if (progress)
     options.progress = [last = std::chrono::steady_clock::time_point{}](const Progress& p) mutable {
@@ -56,7 +57,8 @@ int run_analyze(const AnalyzeArgs& args) {
     parallel::set_threads(threads);
     pseudoadiabat::Table::instance();
   });
-  InputDataset input(args.inputs, options.config.aliases);
+  InputDataset input(args.inputs, options.config.aliases, options.config.conventions);
+  warn_without_surface_pressure(input, "analyze");
   OutputOptions output_options;
   output_options.overwrite = args.overwrite;
   std::vector<std::string> words;
@@ -96,6 +98,7 @@ int run_analyze(const AnalyzeArgs& args) {
     std::printf("analyze: wrote %s\n", args.output.c_str());
     std::printf("  steps %zu, columns %zu: analysed %ld, skipped %ld (fewer than 3 usable levels)\n", summary.steps,
                 summary.columns, qc.columns_analysed, qc.columns_skipped);
+    print_input_summary(input);
     std::printf("  quality control: humidity clipped %ld, dew point corrected %ld, temperatures rejected %ld\n",
                 qc.humidity_clipped, qc.dew_point_corrected, qc.temperature_rejected);
     std::printf("  time %.2f s on %d threads (waiting for input %.2f s, for output %.2f s), %.0f columns/s\n",
@@ -118,7 +121,8 @@ void add_analyze_command(CLI::App& app, int& exit_code) {
   cmd->add_option("--set", args->sets, "Override a configuration key: section.key=value (repeatable)")
       ->allow_extra_args(false)
       ->take_all();
-  cmd->add_option("--threads", args->threads, "Threads over columns (default: all cores)")->check(CLI::PositiveNumber);
+  cmd->add_option("--threads", args->threads, "Threads over columns (0 or not given: all cores)")
+      ->check(CLI::NonNegativeNumber);
   cmd->add_flag("--level-fields", args->level_fields, "Also write the per-level fields");
   cmd->add_flag("--overwrite", args->overwrite, "Replace an existing output file");
   cmd->add_flag("--quiet", args->quiet, "No progress line and no run summary");

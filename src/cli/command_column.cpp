@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "latentlift/climatology.hpp"
 #include "latentlift/column.hpp"
 #include "latentlift/config.hpp"
 #include "latentlift/errors.hpp"
@@ -25,6 +26,7 @@ struct ColumnArgs {
   std::vector<std::string> inputs;  // like analyze: fields may be split across files
   std::string input, config, format = "table";
   std::vector<std::string> sets;
+  std::string lat_text, lon_text;
   double lat = 0.0, lon = 0.0;
   std::size_t time = 0;
 };
@@ -60,14 +62,53 @@ const char* latent_class_name(int code) {
 struct Row {
   double p_hpa, z_m, t_k, td_k, tw_k, thw_k, thws_k, excess_k;
   int latent_flag, stability;
+  bool below_ground;
 };
 
-int run_column(const ColumnArgs& args) {
+/// Decimal degrees from --lat/--lon text; a plain UsageError otherwise (e.g. "50N").
+double parse_degrees(const std::string& text, const char* option, const char* direction) {
+  std::size_t used = 0;
+  double value = 0.0;
+  try {
+    value = std::stod(text, &used);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  if (used == 0 || used != text.size() || !std::isfinite(value))
+    throw UsageError(std::string(option) + " " + text + ": expected a number of degrees " + direction +
+                     " (e.g. 50 or -33.5; south and west are negative, no letters)");
+  return value;
+}
+
+/// The valid time of time index `index` as ISO 8601, or "" without a usable time coordinate.
+std::string valid_time_text(const GridDescription& grid, std::size_t index) {
+  if (index >= grid.time_values.size() || grid.time_units.empty()) return "";
+  try {
+    climatology::TimeUnits units = climatology::parse_time_units(grid.time_units, grid.time_calendar.empty() ? "standard" : grid.time_calendar);
+    return climatology::iso8601(static_cast<std::int64_t>(std::llround(grid.time_values[index] * units.seconds_per_unit)) +
+                   units.epoch_s);
+  } catch (const std::invalid_argument&) {
+    return "";
+  }
+}
+
+std::string json_text(const std::string& text) {
+  std::string out = "\"";
+  for (char c : text) {
+    if (c == '"' || c == '\\') out += '\\';
+    out += c;
+  }
+  return out + "\"";
+}
+
+int run_column(ColumnArgs args) {
   if (args.format != "table" && args.format != "csv" && args.format != "json")
     throw UsageError("--format: expected table, csv or json, got " + args.format);
+  args.lat = parse_degrees(args.lat_text, "--lat", "north");
+  args.lon = parse_degrees(args.lon_text, "--lon", "east");
   if (!(args.lat >= -90.0 && args.lat <= 90.0)) throw UsageError("--lat: expected -90 to 90 degrees");
   RunConfig config = load_config(args.config, args.sets);
-  InputDataset input(args.inputs, config.aliases);
+  InputDataset input(args.inputs, config.aliases, config.conventions);
   const GridDescription& grid = input.grid();
   if (args.time >= grid.n_times)
     throw UsageError("--time " + std::to_string(args.time) + ": the input has " + std::to_string(grid.n_times) +
@@ -127,6 +168,10 @@ int run_column(const ColumnArgs& args) {
   in.humidity_kind = block.humidity_kind;
   in.height_m = block.height_m.data();
   in.surface_pressure_pa = block.surface_pressure_pa.empty() ? -1.0 : block.surface_pressure_pa[0];
+  const double surface_hpa = in.surface_pressure_pa > 0 ? in.surface_pressure_pa / 100.0 : std::nan("");
+  const std::string valid_time = valid_time_text(grid, args.time);
+  const std::string surface_source = surface_pressure_description(input);
+  warn_without_surface_pressure(input, "column");
   ColumnAnalyzer analyzer(settings);
   ColumnResult r;
   analyzer.analyze(in, r);
@@ -144,7 +189,7 @@ int run_column(const ColumnArgs& args) {
     rows.push_back({grid.pressure_pa[k] / 100.0, block.height_m[k], block.temp_k[k], at(lf.dew_point_k, k),
                     at(lf.wet_bulb_temperature_k, k), at(lf.wet_bulb_potential_temperature_k, k),
                     at(lf.saturation_theta_w_k, k), at(lf.max_parcel_excess_k, k), at8(lf.latent_flag, k),
-                    at8(lf.stability_class, k)});
+                    at8(lf.stability_class, k), grid.pressure_pa[k] / 100.0 > surface_hpa});
   struct Summary {
     const char* name;
     const char* units;
@@ -172,9 +217,14 @@ int run_column(const ColumnArgs& args) {
   std::ostringstream out;
   if (args.format == "json") {
     auto json_number = [](double v, int decimals) { return std::isnan(v) ? std::string("null") : number(v, decimals); };
-    out << "{\n  \"file\": \"" << args.input << "\",\n  \"column\": " << best << ",\n  \"latitude\": "
+    out << "{\n  \"files\": [";
+    for (std::size_t i = 0; i < args.inputs.size(); ++i) out << (i ? ", " : "") << json_text(args.inputs[i]);
+    out << "],\n  \"column\": " << best << ",\n  \"latitude\": "
         << number(lats[best], 4) << ",\n  \"longitude\": " << number(lons[best], 4)
         << ",\n  \"distance_km\": " << number(distance_km, 1) << ",\n  \"time_index\": " << args.time
+        << ",\n  \"valid_time\": " << (valid_time.empty() ? std::string("null") : json_text(valid_time))
+        << ",\n  \"surface_pressure_hpa\": " << json_number(surface_hpa, 2)
+        << ",\n  \"surface_pressure_source\": " << json_text(to_string(input.surface_pressure_source()))
         << ",\n  \"levels\": [\n";
     for (std::size_t i = 0; i < rows.size(); ++i) {
       const Row& w = rows[i];
@@ -185,7 +235,8 @@ int run_column(const ColumnArgs& args) {
           << ", \"max_parcel_excess_k\": " << json_number(w.excess_k, 2)
           << ", \"latent_flag\": " << (w.latent_flag < 0 ? "null" : std::to_string(w.latent_flag))
           << ", \"stability_class\": "
-          << (w.stability < 0 ? std::string("null") : "\"" + std::string(stability_name(w.stability)) + "\"") << "}"
+          << (w.stability < 0 ? std::string("null") : "\"" + std::string(stability_name(w.stability)) + "\"")
+          << ", \"below_ground\": " << (w.below_ground ? "true" : "false") << "}"
           << (i + 1 < rows.size() ? "," : "") << "\n";
     }
     out << "  ],\n  \"summary\": {\n";
@@ -195,20 +246,25 @@ int run_column(const ColumnArgs& args) {
         << "\n  }\n}\n";
   } else if (args.format == "csv") {
     out << "pressure_hpa,height_m,temperature_k,dew_point_k,wet_bulb_temperature_k,theta_w_k,theta_w_star_k,"
-           "max_parcel_excess_k,latent_flag,stability_class\n";
+           "max_parcel_excess_k,latent_flag,stability_class,below_ground\n";
     for (const Row& w : rows)
       out << number(w.p_hpa, 2) << ',' << number(w.z_m, 1) << ',' << number(w.t_k, 2) << ',' << number(w.td_k, 2) << ','
           << number(w.tw_k, 2) << ',' << number(w.thw_k, 2) << ',' << number(w.thws_k, 2) << ','
           << number(w.excess_k, 2) << ',' << (w.latent_flag < 0 ? "" : std::to_string(w.latent_flag)) << ','
-          << stability_name(w.stability) << '\n';
+          << stability_name(w.stability) << ',' << (w.below_ground ? 1 : 0) << '\n';
     out << "\nfield,value,units\n";
     for (const Summary& s : summary) out << s.name << ',' << number(s.value, 2) << ',' << s.units << '\n';
     out << "latent_class," << latent_class_name(r.latent_class) << ",\n";
+    out << "valid_time," << valid_time << ",\nsurface_pressure," << number(surface_hpa, 2) << ",hPa\n"
+        << "surface_pressure_source," << to_string(input.surface_pressure_source()) << ",\n";
   } else {
     char line[256];
     std::snprintf(line, sizeof line, "column %zu at %.4f, %.4f (%.1f km from %.4f, %.4f), time index %zu\n", best,
                   lats[best], lons[best], distance_km, args.lat, args.lon, args.time);
     out << line;
+    out << "valid time " << (valid_time.empty() ? std::string("unknown (no time coordinate)") : valid_time)
+        << "\nsurface pressure " << (std::isnan(surface_hpa) ? std::string("-") : number(surface_hpa, 1) + " hPa")
+        << ", source: " << surface_source << "\n";
     std::snprintf(line, sizeof line, "%8s %8s %7s %7s %7s %7s %7s %7s %6s  %s\n", "p hPa", "z m", "T K", "Td K",
                   "Tw K", "thw K", "thw* K", "exc K", "latent", "stability (layer above)");
     out << line;
@@ -217,7 +273,8 @@ int run_column(const ColumnArgs& args) {
       std::snprintf(line, sizeof line, "%8s %8s %7s %7s %7s %7s %7s %7s %6s  %s\n", cell(w.p_hpa, 1).c_str(),
                     cell(w.z_m, 0).c_str(), cell(w.t_k, 1).c_str(), cell(w.td_k, 1).c_str(), cell(w.tw_k, 1).c_str(),
                     cell(w.thw_k, 1).c_str(), cell(w.thws_k, 1).c_str(), cell(w.excess_k, 2).c_str(),
-                    w.latent_flag < 0 ? "-" : (w.latent_flag ? "yes" : "no"), stability_name(w.stability));
+                    w.latent_flag < 0 ? "-" : (w.latent_flag ? "yes" : "no"),
+                    w.below_ground ? "below ground (not analysed)" : stability_name(w.stability));
       out << line;
     }
     out << "\n";
@@ -242,8 +299,8 @@ void add_column_command(CLI::App& app, int& exit_code) {
                   "Input NetCDF file (more files: fields split across them, e.g. surface pressure)")
       ->required()
       ->check(CLI::ExistingFile);
-  cmd->add_option("--lat", args->lat, "Latitude, degrees north")->required();
-  cmd->add_option("--lon", args->lon, "Longitude, degrees east")->required();
+  cmd->add_option("--lat", args->lat_text, "Latitude, degrees north (south negative)")->required();
+  cmd->add_option("--lon", args->lon_text, "Longitude, degrees east (west negative)")->required();
   cmd->add_option("--time", args->time, "Time index (0-based)");
   cmd->add_option("--format", args->format, "Output format: table, csv or json");
   cmd->add_option("--config", args->config, "Configuration file (TOML)")->check(CLI::ExistingFile);

@@ -5,6 +5,7 @@
 #pragma once
 
 #include <CLI/CLI.hpp>
+#include <string>
 
 namespace latentlift::cli {
 
@@ -13,5 +14,20 @@ void add_column_command(CLI::App& app, int& exit_code);       // command_column.
 void add_climatology_command(CLI::App& app, int& exit_code);  // command_climatology.cpp
 void add_reproject_command(CLI::App& app, int& exit_code);    // command_reproject.cpp
 void add_quicklook_command(CLI::App& app, int& exit_code);    // command_quicklook.cpp
+
+}  // namespace latentlift::cli
+
+namespace latentlift {
+class InputDataset;
+}
+
+namespace latentlift::cli {
+
+/// Without surface pressure and surface height: one warning line on stderr (below-ground levels analysed).
+void warn_without_surface_pressure(const InputDataset& input, const char* command);  // input_report.cpp
+/// Run-summary lines: the variables used per quantity, the surface pressure and its source, the levels.
+void print_input_summary(const InputDataset& input);                                  // input_report.cpp
+/// "none (...)", "input (variable)" or "derived from surface geopotential (variable)".
+std::string surface_pressure_description(const InputDataset& input);                 // input_report.cpp
 
 }  // namespace latentlift::cli

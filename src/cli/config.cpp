@@ -19,7 +19,8 @@ constexpr double kPaPerHpa = 100.0;
 const std::vector<std::string>& quantity_keys() {
   static const std::vector<std::string> keys = {
       "air_temperature",       "specific_humidity", "relative_humidity",  "dew_point_temperature",
-      "humidity_mixing_ratio", "geopotential",      "geopotential_height", "surface_air_pressure"};
+      "humidity_mixing_ratio", "geopotential",      "geopotential_height", "surface_air_pressure",
+      "surface_altitude",      "surface_geopotential"};
   return keys;
 }
 
@@ -32,7 +33,9 @@ InputAliases default_aliases() {
           {"humidity_mixing_ratio", {"mr", "MIXR", "qv", "QVAPOR"}},
           {"geopotential", {"z", "Z", "phi", "geopotential"}},
           {"geopotential_height", {"gh", "zg", "HGT", "hgt", "geopotential_height"}},
-          {"surface_air_pressure", {"sp", "ps", "PRES", "PSFC", "surface_pressure"}}};
+          {"surface_air_pressure", {"sp", "ps", "PRES", "PSFC", "surface_pressure"}},
+          {"surface_altitude", {"orog", "orography", "zs", "HGT_surface"}},
+          {"surface_geopotential", {"fis", "phis", "z_surface"}}};
 }
 
 double number(const toml::node& node, const std::string& key) {
@@ -86,11 +89,36 @@ void apply(RunConfig& config, const std::string& section, const std::string& key
     } else {
       throw UsageError("unknown config key " + full);
     }
+  } else if (section == "input" && key == "require_surface_pressure") {
+    auto value = node.value<bool>();
+    if (!value || !node.is_boolean()) throw UsageError("config key " + full + ": expected true or false");
+    config.conventions.require_surface_pressure = *value;
+  } else if (section == "input" && key == "relative_humidity_over") {
+    auto text = node.value<std::string>();
+    if (text && *text == "water")
+      config.conventions.relative_humidity_over = thermo::SaturationReference::water;
+    else if (text && *text == "ice_below_freezing")
+      config.conventions.relative_humidity_over = thermo::SaturationReference::ice_below_freezing;
+    else if (text && *text == "mixed")
+      config.conventions.relative_humidity_over = thermo::SaturationReference::mixed;
+    else
+      throw UsageError("config key " + full + ": expected \"water\", \"ice_below_freezing\" or \"mixed\"");
+  } else if (section == "input" && (key == "mixed_phase_cold_k" || key == "mixed_phase_warm_k")) {
+    const double value = number(node, full);
+    if (!(value >= 200.0 && value <= 273.16))
+      throw UsageError("config key " + full + ": expected a temperature in K from 200 to 273.16");
+    (key == "mixed_phase_cold_k" ? config.conventions.mixed_phase.cold_k : config.conventions.mixed_phase.warm_k) = value;
+  } else if (section == "input" && key == "mixed_phase_exponent") {
+    const double value = number(node, full);
+    if (!(value > 0.0 && value <= 4.0)) throw UsageError("config key " + full + ": expected a number above 0, at most 4");
+    config.conventions.mixed_phase.exponent = value;
   } else if (section == "input") {
     if (std::find(quantity_keys().begin(), quantity_keys().end(), key) == quantity_keys().end())
       throw UsageError("unknown config key " + full + " (quantities: air_temperature, specific_humidity, "
                        "relative_humidity, dew_point_temperature, humidity_mixing_ratio, geopotential, "
-                       "geopotential_height, surface_air_pressure)");
+                       "geopotential_height, surface_air_pressure, surface_altitude, surface_geopotential; "
+                       "also require_surface_pressure, relative_humidity_over, mixed_phase_cold_k, "
+                       "mixed_phase_warm_k, mixed_phase_exponent)");
     std::vector<std::string> names;
     if (auto text = node.value<std::string>()) {
       names.push_back(*text);
@@ -167,6 +195,8 @@ RunConfig load_config(const std::string& config_path, const std::vector<std::str
     apply(config, section, key, *parsed.get("v"));
   }
   if (config.analysis.source_layer_pa <= 0.0) throw UsageError("config key analysis.source_layer_hpa: must be positive");
+  if (!(config.conventions.mixed_phase.cold_k < config.conventions.mixed_phase.warm_k))
+    throw UsageError("config keys input.mixed_phase_cold_k and input.mixed_phase_warm_k: expected cold below warm");
   return config;
 }
 
@@ -181,6 +211,12 @@ std::string config_to_toml(const RunConfig& config) {
     for (std::size_t i = 0; i < names.size(); ++i) out << (i ? ", " : "") << '"' << names[i] << '"';
     out << "]\n";
   }
+  const char* over[] = {"water", "ice_below_freezing", "mixed"};
+  out << "require_surface_pressure = " << (config.conventions.require_surface_pressure ? "true" : "false")
+      << "\nrelative_humidity_over = \"" << over[static_cast<int>(config.conventions.relative_humidity_over)]
+      << "\"\nmixed_phase_cold_k = " << config.conventions.mixed_phase.cold_k
+      << "\nmixed_phase_warm_k = " << config.conventions.mixed_phase.warm_k
+      << "\nmixed_phase_exponent = " << config.conventions.mixed_phase.exponent << "\n";
   out << "\n[run]\nblock_columns = " << config.block_columns << "\nthreads = " << config.threads
       << "\n\n[output]\ndeflate_level = " << config.deflate_level << "\n";
   return out.str();

@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "io/chunk_reader.hpp"
+#include "io/grib_input.hpp"
 #include "io/netcdf_util.hpp"
 #include "io/units.hpp"
 #include "latentlift/netcdf_io.hpp"
@@ -34,6 +35,7 @@ struct VarRef {
   double scale = 1.0, offset = 0.0;  // SI = raw * scale + offset (unpacking, units and 1/g folded in)
   bool global_time = false;      // indexed by the time index over all files (not the segment's own)
   std::shared_ptr<ChunkReader> direct;  // set when its chunks are read raw and inflated here (chunk_reader.hpp)
+  std::vector<std::size_t> levels;  // per grid level: index along the variable's own pressure dimension
   bool present() const { return varid >= 0; }
 };
 
@@ -46,16 +48,21 @@ struct DecodedStep {
 /// The variables of one run of time steps (one input file with temperature, plus split-off fields).
 struct Segment {
   std::size_t time_offset = 0, time_length = 1;
-  VarRef temp, humidity, height, surface_pressure;
+  VarRef temp, humidity, height, surface_pressure, surface_height;
 };
 
 }  // namespace io::detail
 
 struct InputDataset::Impl {
-  std::vector<std::string> paths;
+  std::vector<std::string> input_paths;  // as given (paths())
+  std::unique_ptr<io::detail::GribStaging> grib;  // GRIB inputs staged as one NetCDF file (outlives files)
+  std::vector<std::string> paths;        // per opened file, its name in messages (GRIB: the GRIB files)
   std::vector<io::detail::NcFile> files;
   GridDescription grid;
   HumidityKind humidity_kind = HumidityKind::specific_humidity;
+  InputConventions conventions;
+  SurfacePressureSource surface_pressure_source = SurfacePressureSource::none;
+  std::string common_levels_note;
   std::vector<io::detail::Segment> segments;
   int time_outer = -1;                 // index of the time dimension in grid.outer
   // Where the writer copies coordinates from (file index and variable names in it).

@@ -58,14 +58,14 @@ void check_complete(int ncid, const std::string& path) {
 
 }  // namespace
 
-NcFile NcFile::open_read(const std::string& path) {
+NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
   NcFile file;
   int status = nc_open(path.c_str(), NC_NOWRITE, &file.id_);
   if (status != NC_NOERR) {
     file.id_ = -1;
-    throw InputError(path, "", std::string("expected a readable NetCDF file (") + nc_strerror(status) + ")");
+    throw InputError(path, "", std::string("expected a readable NetCDF or GRIB file (") + nc_strerror(status) + ")");
   }
-  file.path_ = path;
+  file.path_ = shown_as.empty() ? path : shown_as;
   check_complete(file.id_, path);
   return file;
 }

@@ -19,8 +19,9 @@ void check(int status, const std::string& file, const std::string& what);
 class NcFile {
  public:
   NcFile() = default;
-  /// Open read-only; a file that is not NetCDF or is damaged is an InputError.
-  static NcFile open_read(const std::string& path);
+  /// Open read-only; a file that is not NetCDF or is damaged is an InputError. shown_as: the
+  /// name used in messages and path() (e.g. the GRIB files a staged file was made from).
+  static NcFile open_read(const std::string& path, const std::string& shown_as = "");
   /// Create a NetCDF-4 file (clobbering path).
   static NcFile create_netcdf4(const std::string& path);
   ~NcFile();

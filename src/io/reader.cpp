@@ -196,6 +196,12 @@ const std::vector<Wanted> kHumidity = {
 const std::vector<Wanted> kHeight = {{"geopotential_height", "m", HumidityKind::specific_humidity},
                                      {"geopotential", "m2 s-2", HumidityKind::specific_humidity}};
 const std::vector<Wanted> kSurfacePressure = {{"surface_air_pressure", "Pa", HumidityKind::specific_humidity}};
+// Surface height: orography or surface geopotential; a field without a pressure dimension that
+// is tagged geopotential(_height) is taken too (grib_to_netcdf tags NCEP orography so).
+const std::vector<Wanted> kSurfaceHeight = {{"surface_altitude", "m", HumidityKind::specific_humidity},
+                                            {"surface_geopotential", "m2 s-2", HumidityKind::specific_humidity},
+                                            {"geopotential_height", "m", HumidityKind::specific_humidity},
+                                            {"geopotential", "m2 s-2", HumidityKind::specific_humidity}};
 
 /// Build the VarRef of a found variable: packing, fill values, unit conversion to SI.
 VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
@@ -221,14 +227,15 @@ VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
     target = "1";
   } else if (var.quantity == "surface_air_pressure") {
     target = "Pa";
-  } else {  // geopotential or geopotential height, told apart by the units
+  } else {  // geopotential or geopotential height (also at the surface), told apart by the units
+    const bool surface = var.quantity.rfind("surface_", 0) == 0;
     if (has_units && d::convertible(var.units, "m2 s-2")) {
       target = "m2 s-2";
       factor = 1.0 / kStandardGravity;
-      var.quantity = "geopotential";
+      var.quantity = surface ? "surface_geopotential" : "geopotential";
     } else {
       target = "m";
-      var.quantity = "geopotential_height";
+      var.quantity = surface ? "surface_altitude" : "geopotential_height";
     }
   }
   if (!has_units)
@@ -241,7 +248,8 @@ VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
     conv_scale = converter.convert(1.0) - conv_offset;
   } catch (const std::invalid_argument& e) {
     std::string expectation = "units convertible to '" + target + "' for " + var.quantity;
-    if (var.quantity == "geopotential_height") expectation = "units of geopotential (m2 s-2) or geopotential height (m)";
+    if (var.quantity == "geopotential_height" || var.quantity == "surface_altitude")
+      expectation = "units of geopotential (m2 s-2) or geopotential height (m)";
     throw InputError(file.path(), var.name, expectation + " (" + e.what() + ")");
   }
 
@@ -290,7 +298,49 @@ bool same_values(const std::vector<double>& a, const std::vector<double>& b) {
   return true;
 }
 
+/// Pressure values (Pa) of the coordinate variable of a pressure dimension.
+std::vector<double> level_values_pa(const NcFile& file, const std::string& dim) {
+  const int coord = d::coordinate_var(file.id(), dim);
+  std::vector<double> values = d::read_all_doubles(file.id(), coord, file.path());
+  d::UnitConverter(d::text_attribute(file.id(), coord, "units"), "Pa").convert(values.data(), values.size());
+  return values;
+}
+
+/// Two pressure levels are the same when they agree to 0.01 Pa (float rounding of hPa values).
+bool same_level(double a, double b) { return std::abs(a - b) <= 0.01 + 1e-6 * std::abs(a); }
+
+std::string format_hpa(double pa) {
+  std::ostringstream out;
+  out << pa / 100.0;
+  return out.str();
+}
+
+/// Time values with their units, e.g. "1016772 hours since 1900-01-01" (at most 4 values shown).
+std::string format_times(const std::vector<double>& values, const std::string& units) {
+  std::ostringstream out;
+  out.precision(12);
+  for (std::size_t i = 0; i < values.size() && i < 4; ++i) out << (i ? ", " : "") << values[i];
+  if (values.size() > 4) out << ", ... (" << values.size() << " times)";
+  out << " " << units;
+  return out.str();
+}
+
+std::string format_levels(const std::vector<double>& pa) {
+  std::string text;
+  for (double p : pa) text += (text.empty() ? "" : " ") + format_hpa(p);
+  return text + " hPa";
+}
+
 }  // namespace
+
+const char* to_string(SurfacePressureSource source) {
+  switch (source) {
+    case SurfacePressureSource::input: return "input";
+    case SurfacePressureSource::derived_from_surface_geopotential: return "derived_from_surface_geopotential";
+    case SurfacePressureSource::none: break;
+  }
+  return "none";
+}
 
 const Segment& InputDataset::Impl::segment_of_time(std::size_t time_index, std::size_t& local) const {
   for (const Segment& segment : segments)
@@ -308,7 +358,8 @@ namespace {
 void attach_chunk_readers(InputDataset::Impl& impl) {
   std::map<std::pair<int, int>, std::shared_ptr<d::ChunkReader>> made;  // (file, varid): one reader each
   for (Segment& segment : impl.segments)
-    for (VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
+    for (VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
+                        &segment.surface_height}) {
       if (!var->present() || (var->type != NC_FLOAT && var->type != NC_DOUBLE)) continue;
       auto key = std::make_pair(var->file, var->varid);
       auto it = made.find(key);
@@ -341,12 +392,16 @@ void bind_to_grid(InputDataset::Impl& impl, VarRef& var, bool need_vertical) {
   for (std::size_t i = 0; i < var.shape.names.size(); ++i) {
     const std::string& name = var.shape.names[i];
     const std::size_t length = var.shape.lengths[i];
-    if (var.roles[i] == DimRole::vertical) {
-      if (name != grid.vertical.name || length != grid.vertical.length)
-        throw InputError(file.path(), var.name,
-                         "the pressure dimension '" + grid.vertical.name + "' of length " +
-                             std::to_string(grid.vertical.length) + " (found '" + name + "' of length " +
-                             std::to_string(length) + ")");
+    if (var.roles[i] == DimRole::vertical) {  // matched by the level values, never by the name
+      std::vector<double> own = level_values_pa(file, name);
+      var.levels.clear();
+      for (double p : grid.pressure_pa) {
+        auto at = std::find_if(own.begin(), own.end(), [&](double q) { return same_level(p, q); });
+        if (at == own.end())
+          throw InputError(file.path(), var.name, "the pressure level " + format_hpa(p) + " hPa of the analysis (its "
+                                                      "levels on '" + name + "': " + format_levels(own) + ")");
+        var.levels.push_back(static_cast<std::size_t>(at - own.begin()));
+      }
       continue;
     }
     bool found = false;
@@ -399,32 +454,39 @@ void check_same_coordinates(const InputDataset::Impl& impl, int file_index) {
     if (!same_values(coordinate_values(a, dim.name), coordinate_values(b, dim.name)))
       throw InputError(b.path(), dim.name, "the same grid as " + a.path() + " (coordinate values differ)");
   }
-  if (!impl.vertical_coordinate.empty() && d::coordinate_var(b.id(), impl.vertical_coordinate) >= 0) {
-    std::vector<double> pa = coordinate_values(a, impl.vertical_coordinate);
-    std::vector<double> pb = coordinate_values(b, impl.vertical_coordinate);
-    std::string ua = d::text_attribute(a.id(), d::find_var(a.id(), impl.vertical_coordinate), "units");
-    std::string ub = d::text_attribute(b.id(), d::find_var(b.id(), impl.vertical_coordinate), "units");
-    d::UnitConverter(ua, "Pa").convert(pa.data(), pa.size());
-    d::UnitConverter(ub, "Pa").convert(pb.data(), pb.size());
-    if (!same_values(pa, pb))
-      throw InputError(b.path(), impl.vertical_coordinate, "the same pressure levels as " + a.path());
-  }
+  // Pressure levels are matched per variable by their values (bind_to_grid).
 }
 
 }  // namespace
 
-InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases)
+InputDataset::InputDataset(const std::vector<std::string>& input_paths, const InputAliases& aliases,
+                           const InputConventions& conventions)
     : impl_(std::make_unique<Impl>()) {
   Impl& impl = *impl_;
-  if (paths.empty()) throw UsageError("no input file given");
+  impl.conventions = conventions;
+  if (input_paths.empty()) throw UsageError("no input file given");
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
-  impl.paths = paths;
-  for (const std::string& path : paths) impl.files.push_back(NcFile::open_read(path));
+  impl.input_paths = input_paths;
+  std::vector<std::string> grib_paths;
+  for (const std::string& path : input_paths) {
+    if (d::is_grib_file(path)) {
+      grib_paths.push_back(path);
+      continue;
+    }
+    impl.paths.push_back(path);
+    impl.files.push_back(NcFile::open_read(path));
+  }
+  if (!grib_paths.empty()) {  // every GRIB file together: time steps, members and fields split across files
+    impl.grib = std::make_unique<d::GribStaging>(grib_paths);
+    impl.paths.push_back(impl.grib->label());
+    impl.files.push_back(NcFile::open_read(impl.grib->path(), impl.grib->label()));
+  }
+  const std::vector<std::string>& paths = impl.paths;  // from here on: one entry per opened file
   const int nfiles = static_cast<int>(paths.size());
 
   // 1. Which file has which quantity.
   struct Found {
-    Candidate temp, humidity, height, surface_pressure;
+    Candidate temp, humidity, height, surface_pressure, surface_height;
   };
   std::vector<Found> found(nfiles);
   for (int f = 0; f < nfiles; ++f) {
@@ -433,6 +495,7 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
     found[f].humidity = find_quantity(ncid, kHumidity, aliases, true);
     found[f].height = find_quantity(ncid, kHeight, aliases, true);
     found[f].surface_pressure = find_quantity(ncid, kSurfacePressure, aliases, false);
+    found[f].surface_height = find_quantity(ncid, kSurfaceHeight, aliases, false);
   }
   std::string all_files;
   for (const std::string& path : paths) all_files += (all_files.empty() ? "" : ", ") + path;
@@ -563,6 +626,56 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
   assign(&Found::humidity, &Segment::humidity, "humidity", kHumidity, true, true);
   assign(&Found::height, &Segment::height, "geopotential or geopotential height", kHeight, true, true);
   assign(&Found::surface_pressure, &Segment::surface_pressure, "surface air pressure", kSurfacePressure, false, false);
+  assign(&Found::surface_height, &Segment::surface_height, "surface geopotential or orography", kSurfaceHeight, false,
+         false);
+  if (impl.segments[0].surface_pressure.present()) {
+    impl.surface_pressure_source = SurfacePressureSource::input;
+    for (Segment& segment : impl.segments) segment.surface_height = VarRef{};  // not needed
+  } else if (impl.segments[0].surface_height.present()) {
+    impl.surface_pressure_source = SurfacePressureSource::derived_from_surface_geopotential;
+  } else if (conventions.require_surface_pressure) {
+    throw InputError(all_files, "", "surface air pressure or surface geopotential/orography "
+                                    "(input.require_surface_pressure = true): looked for " +
+                                        looked_for(kSurfacePressure, aliases, false) + "; and for " +
+                                        looked_for(kSurfaceHeight, aliases, false));
+  }
+
+  // 3b. Pressure levels: each quantity's levels by value (Pa); the analysis uses those common to all.
+  {
+    GridDescription& grid = impl.grid;
+    const Segment& first = impl.segments[0];
+    std::vector<double> common = grid.pressure_pa;
+    std::string note;
+    bool reduced = false;
+    for (const VarRef* var : {&first.temp, &first.humidity, &first.height}) {
+      const NcFile& file = impl.files[var->file];
+      int vertical = 0;
+      std::vector<DimRole> roles = classify(file.id(), var->varid, var->shape, vertical);
+      std::vector<double> own;
+      for (std::size_t i = 0; i < roles.size(); ++i)
+        if (roles[i] == DimRole::vertical) own = level_values_pa(file, var->shape.names[i]);
+      std::vector<double> kept;
+      for (double p : common)
+        if (std::any_of(own.begin(), own.end(), [&](double q) { return same_level(p, q); })) kept.push_back(p);
+      reduced = reduced || kept.size() != common.size() || own.size() != grid.pressure_pa.size();
+      common = kept;
+      note += (note.empty() ? "" : ", ") + var->quantity + " '" + var->name + "' on " + std::to_string(own.size()) +
+              " levels";
+    }
+    if (common.size() < 3)
+      throw InputError(all_files, first.humidity.name, "at least 3 pressure levels shared by air temperature, humidity "
+                                                       "and geopotential (" + note + "; " +
+                                                           std::to_string(common.size()) + " in common)");
+    if (reduced) {
+      std::vector<double> dropped;
+      for (double p : grid.pressure_pa)
+        if (std::none_of(common.begin(), common.end(), [&](double q) { return same_level(p, q); })) dropped.push_back(p);
+      impl.common_levels_note = note + ": analysed on the " + std::to_string(common.size()) + " levels common to all" +
+                                (dropped.empty() ? std::string() : " (not used: " + format_levels(dropped) + ")");
+      grid.pressure_pa = common;
+      grid.vertical.length = common.size();
+    }
+  }
 
   // 4. Humidity kind must agree across segments.
   const std::string humidity_quantity = impl.segments[0].humidity.quantity;
@@ -631,7 +744,9 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
     bind_to_grid(impl, segment.humidity, true);
     bind_to_grid(impl, segment.height, true);
     if (segment.surface_pressure.present()) bind_to_grid(impl, segment.surface_pressure, false);
-    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure})
+    if (segment.surface_height.present()) bind_to_grid(impl, segment.surface_height, false);
+    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
+                              &segment.surface_height})
       if (var->present()) used_files.insert(var->file);
   }
   for (int f : used_files) check_same_coordinates(impl, f);
@@ -643,7 +758,7 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
   if (impl.time_outer >= 0) {
     const std::string& time_dim = grid.outer[impl.time_outer].name;
     for (Segment& segment : impl.segments)
-      for (VarRef* var : {&segment.humidity, &segment.height, &segment.surface_pressure}) {
+      for (VarRef* var : {&segment.humidity, &segment.height, &segment.surface_pressure, &segment.surface_height}) {
         if (!var->present() || var->file == segment.temp.file) continue;
         auto it = std::find(var->shape.names.begin(), var->shape.names.end(), time_dim);
         if (it == var->shape.names.end()) continue;  // static field: broadcast over time
@@ -655,7 +770,9 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
           if (!grid.time_values.empty() && d::coordinate_var(b.id(), time_dim) >= 0 &&
               d::text_attribute(b.id(), d::find_var(b.id(), time_dim), "units") == grid.time_units &&
               !same_values(coordinate_values(b, time_dim), grid.time_values))
-            throw InputError(b.path(), var->name, "the same times as the files with air temperature");
+            throw InputError(b.path(), var->name, "the same times as the files with air temperature (theirs: " +
+                                                      format_times(grid.time_values, grid.time_units) + "; found " +
+                                                      format_times(coordinate_values(b, time_dim), grid.time_units) + ")");
           continue;
         }
         if (length != segment.time_length)
@@ -668,7 +785,9 @@ InputDataset::InputDataset(const std::vector<std::string>& paths, const InputAli
             d::text_attribute(a.id(), d::find_var(a.id(), time_dim), "units") ==
                 d::text_attribute(b.id(), d::find_var(b.id(), time_dim), "units") &&
             !same_values(coordinate_values(a, time_dim), coordinate_values(b, time_dim)))
-          throw InputError(b.path(), var->name, "the same times as " + a.path());
+          throw InputError(b.path(), var->name, "the same times as " + a.path() + " (" + a.path() + ": " +
+                                                    format_times(coordinate_values(a, time_dim), grid.time_units) +
+                                                    "; found " + format_times(coordinate_values(b, time_dim), grid.time_units) + ")");
       }
   }
   // 7. NetCDF-4 deflated variables: their chunks are read raw and inflated on every core.
@@ -679,15 +798,26 @@ InputDataset::~InputDataset() = default;
 
 const GridDescription& InputDataset::grid() const { return impl_->grid; }
 HumidityKind InputDataset::humidity_kind() const { return impl_->humidity_kind; }
-const std::vector<std::string>& InputDataset::paths() const { return impl_->paths; }
+const std::vector<std::string>& InputDataset::paths() const { return impl_->input_paths; }
 
 std::vector<QuantitySource> InputDataset::sources() const {
   std::vector<QuantitySource> out;
   const Segment& segment = impl_->segments[0];
-  for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure})
+  for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
+                            &segment.surface_height})
     if (var->present()) out.push_back({var->quantity, var->name, impl_->paths[var->file], var->units});
   return out;
 }
+
+SurfacePressureSource InputDataset::surface_pressure_source() const { return impl_->surface_pressure_source; }
+const std::string& InputDataset::common_levels_note() const { return impl_->common_levels_note; }
+
+std::string InputDataset::grid_netcdf_path() const {
+  if (impl_->grib && impl_->grid_file == static_cast<int>(impl_->files.size()) - 1) return impl_->grib->path();
+  return impl_->paths[impl_->grid_file];
+}
+
+bool is_grib_input(const std::string& path) { return d::is_grib_file(path); }
 
 namespace {
 
@@ -700,6 +830,7 @@ thread_local std::vector<std::size_t> t_offsets;
 template <typename Raw>
 bool scatter(const Raw* raw, const VarRef& var, std::size_t level_stride, std::size_t n_levels,
              const std::vector<std::size_t>& offsets, std::size_t column_stride, double* dst) {
+  const std::size_t* level_index = var.levels.empty() ? nullptr : var.levels.data();
   const double scale = var.scale, offset = var.offset, lo = var.valid_min, hi = var.valid_max;
   const double fill0 = var.fills.size() > 0 ? var.fills[0] : kNaN;
   const double fill1 = var.fills.size() > 1 ? var.fills[1] : kNaN;
@@ -717,14 +848,15 @@ bool scatter(const Raw* raw, const VarRef& var, std::size_t level_stride, std::s
     for (std::size_t c = 0; c < n_columns; ++c) {
       const Raw* in = raw + offsets[c];
       double* out = dst + c * column_stride;
-      for (std::size_t k = 0; k < n_levels; ++k) out[k] = convert(static_cast<double>(in[k]));
+      for (std::size_t k = 0; k < n_levels; ++k)
+        out[k] = convert(static_cast<double>(in[level_index ? level_index[k] : k]));
     }
   } else {  // levels outside the horizontal dimensions: transpose in cache-sized tiles of columns
     constexpr std::size_t kTile = 64;
     for (std::size_t c0 = 0; c0 < n_columns; c0 += kTile) {
       const std::size_t c1 = std::min(n_columns, c0 + kTile);
       for (std::size_t k = 0; k < n_levels; ++k) {
-        const Raw* in = raw + k * level_stride;
+        const Raw* in = raw + (level_index ? level_index[k] : k) * level_stride;
         for (std::size_t c = c0; c < c1; ++c) dst[c * column_stride + k] = convert(static_cast<double>(in[offsets[c]]));
       }
     }
@@ -784,7 +916,7 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
     if (slab && var.roles[i] != DimRole::outer) base += start[i] * total;
     total *= slab ? (var.roles[i] == DimRole::outer ? 1 : var.shape.lengths[i]) : count[i];
   }
-  const std::size_t n_levels = vertical >= 0 ? count[vertical] : 1;
+  const std::size_t n_levels = vertical >= 0 ? (var.levels.empty() ? count[vertical] : var.levels.size()) : 1;
   const std::size_t level_stride = vertical >= 0 ? raw_stride[vertical] : 0;
   const std::size_t row_stride = row_dim >= 0 ? raw_stride[row_dim] : 0;
   const std::size_t col_stride = col_dim >= 0 ? raw_stride[col_dim] : 0;
@@ -880,9 +1012,25 @@ void InputDataset::read_block(std::size_t step, ColumnRange range, ColumnBlock& 
     block.surface_pressure_pa.resize(range.count);
     read_var(impl, segment.surface_pressure, local, outer, row0, nrows, col0, ncols, 1,
              block.surface_pressure_pa.data(), any_ps, slab_of(segment.surface_pressure));
+  } else if (segment.surface_height.present()) {
+    // Surface pressure from the surface height and the column's geopotential heights (thermo).
+    block.surface_pressure_pa.resize(range.count);
+    read_var(impl, segment.surface_height, local, outer, row0, nrows, col0, ncols, 1,
+             block.surface_pressure_pa.data(), any_ps, slab_of(segment.surface_height));
+    const double* p = grid.pressure_pa.data();
+    for (std::size_t c = 0; c < range.count; ++c)
+      block.surface_pressure_pa[c] = thermo::surface_pressure_from_height_pa(
+          nz, p, block.height_m.data() + c * nz, block.temp_k.data() + c * nz, block.surface_pressure_pa[c]);
   } else {
     block.surface_pressure_pa.clear();
   }
+  const InputConventions& conventions = impl.conventions;
+  if (impl.humidity_kind == HumidityKind::relative_humidity &&
+      conventions.relative_humidity_over != thermo::SaturationReference::water)
+    for (std::size_t i = 0; i < n; ++i)  // the kernel takes relative humidity over liquid water
+      block.humidity[i] = thermo::relative_humidity_over_water(block.humidity[i], block.temp_k[i],
+                                                               conventions.relative_humidity_over,
+                                                               conventions.mixed_phase);
 }
 
 void InputDataset::decode_step(std::size_t step) const {
@@ -901,7 +1049,8 @@ void InputDataset::decode_step(std::size_t step) const {
           impl.segment_of_time(impl.time_outer >= 0 ? outer[impl.time_outer] : 0, local);
       auto created = std::make_shared<d::DecodedStep>();
       std::vector<d::SlabJob::Part> parts;
-      for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
+      for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
+                                &segment.surface_height}) {
         if (!var->present() || !var->direct) continue;
         std::vector<std::size_t> start = outer_start(impl, *var, local, outer), outer_of_var;
         for (std::size_t i = 0; i < start.size(); ++i)
@@ -928,7 +1077,8 @@ void InputDataset::release_step(std::size_t step) const {
 std::size_t InputDataset::directly_read_variables() const {
   std::set<std::pair<int, int>> found;
   for (const Segment& segment : impl_->segments)
-    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure})
+    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
+                              &segment.surface_height})
       if (var->present() && var->direct) found.insert({var->file, var->varid});
   return found.size();
 }
@@ -945,7 +1095,8 @@ void InputDataset::prepare_block_reads(std::size_t block_columns) const {
   }
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
   for (const Segment& segment : impl.segments)
-    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure}) {
+    for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
+                              &segment.surface_height}) {
       if (!var->present() || var->direct) continue;  // read raw by chunk_reader: no netCDF cache needed
       const int ncid = impl.files[var->file].id();
       const std::size_t ndims = var->shape.lengths.size();

@@ -248,7 +248,19 @@ void OutputWriter::Impl::define(const InputDataset& in) {
       copy_var(coord);
     }
   }
-  if (options.level_fields && !src.vertical_coordinate.empty()) copy_var(src.vertical_coordinate);
+  int level_var = -1;  // pressure coordinate of a reduced level set (common levels), written from grid.pressure_pa
+  if (options.level_fields && !src.vertical_coordinate.empty()) {
+    if (src.common_levels_note.empty()) {
+      copy_var(src.vertical_coordinate);
+    } else {
+      d::check(nc_def_var(out, grid.vertical.name.c_str(), NC_DOUBLE, 1, &vertical_dim, &level_var), path,
+               "defining " + grid.vertical.name);
+      put_text(out, level_var, "units", "Pa", path);
+      put_text(out, level_var, "standard_name", "air_pressure", path);
+      put_text(out, level_var, "positive", "down", path);
+      put_text(out, level_var, "axis", "Z", path);
+    }
+  }
   for (const std::string& coord : src.horizontal_coordinates)
     if (!coord.empty()) copy_var(coord);
   for (const std::string& coord : src.aux_coordinates) copy_var(coord);
@@ -353,6 +365,8 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   for (const QuantitySource& s : in.sources())
     used += (used.empty() ? "" : "; ") + s.quantity + ": " + s.variable + " (" + s.units + ")";
   put_text(out, NC_GLOBAL, "input_variables", used, path);
+  put_text(out, NC_GLOBAL, "surface_pressure_source", to_string(in.surface_pressure_source()), path);
+  if (!in.common_levels_note().empty()) put_text(out, NC_GLOBAL, "pressure_levels_used", in.common_levels_note(), path);
   put_text(out, NC_GLOBAL, "latentlift_settings", options.settings, path);
   d::check(nc_enddef(out), path, "leaving define mode");
 
@@ -370,6 +384,7 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   if (add_latlon)
     d::write_latlon_variables(grid_file.id(), src.horizontal_coordinates[1], src.horizontal_coordinates[0],
                                 grid.grid_mapping, out, added_latlon, grid_file.path());
+  if (level_var >= 0) d::check(nc_put_var_double(out, level_var, grid.pressure_pa.data()), path, "writing levels");
   if (time_var >= 0) {
     std::vector<double> times;
     for (std::size_t t : time_indices) times.push_back(grid.time_values.at(t));

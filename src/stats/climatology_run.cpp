@@ -34,6 +34,8 @@ struct Source {
   bool analysis_output = true;
   bool climatology = false;
   std::vector<std::string> input_files;  // of a climatology input
+  std::vector<std::string> model_paths;  // of model input: opened together, like analyze
+  std::string surface_pressure_source;   // of model input or analyze output ("" unknown)
   Grid grid;
   std::vector<std::int64_t> valid_times;
   Settings settings;
@@ -59,11 +61,18 @@ Grid grid_of(const GridDescription& g) {
   return grid;
 }
 
-Source scan_model_input(const std::string& path, const RunConfig& config, bool level_fields) {
+Source scan_model_input(const std::vector<std::string>& paths, const RunConfig& config, bool level_fields) {
   Source s;
-  s.path = path;
+  for (const std::string& p : paths) s.path += (s.path.empty() ? "" : ", ") + p;
+  const std::string& path = s.path;
+  s.model_paths = paths;
   s.analysis_output = false;
-  InputDataset input({path}, config.aliases);
+  InputDataset input(paths, config.aliases, config.conventions);
+  s.surface_pressure_source = to_string(input.surface_pressure_source());
+  if (input.surface_pressure_source() == SurfacePressureSource::none && comm::world().rank() == 0)
+    std::fprintf(stderr, "climatology: warning: %s has no surface pressure and no surface geopotential or orography: "
+                         "levels below the ground are analysed as air (input.require_surface_pressure = true "
+                         "refuses such input)\n", path.c_str());
   const GridDescription& g = input.grid();
   for (const auto& o : g.outer)
     if (!o.is_time && o.length > 1)
@@ -212,9 +221,12 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
                          to_string(options.group_by) + " (--group must match the file or be left out)");
       meta.group_by = existing->group_by;
     }
-    bool config_loaded = false, grouping_fixed = false;
+    bool grouping_fixed = false;
+    std::vector<std::string> model_paths;  // opened together as one input, as analyze does
     for (const std::string& path : options.inputs) {
-      if (detail::is_stats_file(path)) {
+      if (is_grib_input(path)) {
+        model_paths.push_back(path);
+      } else if (detail::is_stats_file(path)) {
         const detail::StatsMetadata m = detail::read_stats_metadata(path);
         if (options.group_given || existing) {
           if (m.group_by != meta.group_by)
@@ -243,14 +255,15 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
         s.grid = s.analysis.grid;
         s.valid_times = s.analysis.valid_times;
         s.settings = s.analysis.settings;
+        s.surface_pressure_source = s.analysis.surface_pressure_source;
         sources.push_back(std::move(s));
       } else {
-        if (!config_loaded) {
-          config = load_config(options.config_path, options.overrides);
-          config_loaded = true;
-        }
-        sources.push_back(scan_model_input(path, config, options.level_fields));
+        model_paths.push_back(path);
       }
+    }
+    if (!model_paths.empty()) {
+      config = load_config(options.config_path, options.overrides);
+      sources.push_back(scan_model_input(model_paths, config, options.level_fields));
     }
     // one grid, one set of analysis settings, level statistics only when every input has them
     const Grid& ref = existing ? existing->grid : sources.front().grid;
@@ -309,7 +322,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
           acc.add(buffers.view(items[k].valid_time));
         }
       } else {
-        InputDataset input({src.path}, config.aliases);
+        InputDataset input(src.model_paths, config.aliases, config.conventions);
         PipelineOptions po;
         po.config = config;
         po.threads = options.threads;
@@ -355,10 +368,24 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
     std::sort(meta.valid_times.begin(), meta.valid_times.end());
     for (const Source& src : sources) {
       if (src.climatology) meta.input_files.insert(meta.input_files.end(), src.input_files.begin(), src.input_files.end());
+      else if (!src.model_paths.empty()) meta.input_files.insert(meta.input_files.end(), src.model_paths.begin(), src.model_paths.end());
       else meta.input_files.push_back(src.path);
     }
+    // The weakest surface pressure of the inputs: none, else derived, else input ("" when unrecorded).
+    for (const char* level : {"input", "derived_from_surface_geopotential", "none"})
+      for (const Source& src : sources)
+        if (src.surface_pressure_source == level) meta.surface_pressure_source = level;
+    if (existing && (existing->surface_pressure_source == "none" ||
+                     (existing->surface_pressure_source == "derived_from_surface_geopotential" &&
+                      meta.surface_pressure_source != "none")))
+      meta.surface_pressure_source = existing->surface_pressure_source;
     if (!options.command_line.empty()) meta.history += (meta.history.empty() ? "" : "\n") + options.command_line;
-    const std::string template_path = existing ? options.output : sources.front().path;
+    std::string template_path = existing ? options.output : sources.front().path;
+    std::unique_ptr<InputDataset> model_template;  // model input: its grid file (GRIB: the staged NetCDF)
+    if (!existing && !sources.front().model_paths.empty()) {
+      model_template = std::make_unique<InputDataset>(sources.front().model_paths, config.aliases, config.conventions);
+      template_path = model_template->grid_netcdf_path();
+    }
     detail::write_stats(options.output, meta, acc, template_path);
     summary.time_steps_total = static_cast<long>(meta.valid_times.size());
   }

@@ -237,6 +237,7 @@ AnalysisInput scan_analysis_output(const std::string& path) {
   if (cls < 0) throw InputError(path, "latent_class", "a latentlift analyze output (variable missing)");
   TimeAxis axis = find_time_axis(nc.id(), cls, path, "latent_class");
   in.valid_times = axis.valid_times;
+  in.surface_pressure_source = text_att(nc.id(), NC_GLOBAL, "surface_pressure_source");
   const VarDims dims = var_shape(nc.id(), cls);
   in.grid.points = 1;
   for (size_t i = 0; i < dims.dimids.size(); ++i) {
@@ -626,6 +627,7 @@ StatsMetadata read_stats_metadata(const std::string& path) {
   if (!meta.valid_times.empty())
     check(nc_get_var_longlong(id, vt, reinterpret_cast<long long*>(meta.valid_times.data())), path, "reading valid_time");
   meta.input_files = split_lines(text_att(id, NC_GLOBAL, "input_files"));
+  meta.surface_pressure_source = text_att(id, NC_GLOBAL, "surface_pressure_source");
   meta.settings = read_settings(id);
   meta.history = text_att(id, NC_GLOBAL, "history");
   return meta;
@@ -893,6 +895,8 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   put_text(nc, NC_GLOBAL, "horizontal_dimensions", join(grid.dims, " "), tmp);
   if (grid.levels > 0) put_text(nc, NC_GLOBAL, "level_dimension", grid.level_dim, tmp);
   put_text(nc, NC_GLOBAL, "input_files", join(meta.input_files, "\n"), tmp);
+  if (!meta.surface_pressure_source.empty())
+    put_text(nc, NC_GLOBAL, "surface_pressure_source", meta.surface_pressure_source, tmp);
   long long steps = static_cast<long long>(meta.valid_times.size());
   check(nc_put_att_longlong(nc, NC_GLOBAL, "time_steps", NC_INT64, 1, &steps), tmp, "time_steps");
   put_text(nc, NC_GLOBAL, "time_coverage_start", iso8601(meta.valid_times.front()), tmp);

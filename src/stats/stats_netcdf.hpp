@@ -36,6 +36,7 @@ struct AnalysisInput {
   Grid grid;
   std::vector<std::int64_t> valid_times;  // seconds since 1970-01-01Z, per time index
   Settings settings;
+  std::string surface_pressure_source;    // its global attribute ("" when absent)
 };
 
 /// True when the file holds latentlift analyze output fields (latent_class and mu_cape).
@@ -73,6 +74,7 @@ struct StatsMetadata {
   std::vector<std::string> input_files;
   Settings settings;
   std::string history;
+  std::string surface_pressure_source;  // weakest of the inputs: input, derived_from_surface_geopotential, none
 };
 
 /// True when the file is a latentlift climatology (global attribute latentlift_climatology_format).

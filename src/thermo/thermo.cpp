@@ -21,6 +21,65 @@ double saturation_vapour_pressure_pa(double temp_k) {
   return kEs0Pa * std::exp(kEsA * t / (t + kEsB));
 }
 
+double saturation_vapour_pressure_ice_pa(double temp_k) {
+  // Murphy and Koop (2005), Q. J. R. Meteorol. Soc. 131, 1539-1565, eq. 7 (Pa, K; valid above 110 K).
+  return std::exp(9.550426 - 5723.265 / temp_k + 3.53068 * std::log(temp_k) - 0.00728332 * temp_k);
+}
+
+double saturation_vapour_pressure_reference_pa(double temp_k, SaturationReference reference, const MixedPhase& mixed) {
+  switch (reference) {
+    case SaturationReference::water:
+      break;
+    case SaturationReference::ice_below_freezing:
+      if (temp_k < kZeroCelsiusK) return saturation_vapour_pressure_ice_pa(temp_k);
+      break;
+    case SaturationReference::mixed:
+      if (temp_k <= mixed.cold_k) return saturation_vapour_pressure_ice_pa(temp_k);
+      if (temp_k < mixed.warm_k) {
+        const double w = std::pow((temp_k - mixed.cold_k) / (mixed.warm_k - mixed.cold_k), mixed.exponent);
+        return w * saturation_vapour_pressure_pa(temp_k) + (1.0 - w) * saturation_vapour_pressure_ice_pa(temp_k);
+      }
+      break;
+  }
+  return saturation_vapour_pressure_pa(temp_k);
+}
+
+double relative_humidity_over_water(double rh, double temp_k, SaturationReference reference, const MixedPhase& mixed) {
+  if (reference == SaturationReference::water) return rh;
+  return rh * saturation_vapour_pressure_reference_pa(temp_k, reference, mixed) / saturation_vapour_pressure_pa(temp_k);
+}
+
+double surface_pressure_from_height_pa(int n_levels, const double* p, const double* z, const double* t,
+                                       double zs) {
+  // ICAO standard atmosphere (ISO 2533:1975): lapse rate 6.5 K/km, R = 287.05287 J kg-1 K-1, g0.
+  constexpr double kLapseRate = 0.0065;  // K/m
+  constexpr double kRIcao = 287.05287;   // J kg-1 K-1
+  if (!std::isfinite(zs)) return std::nan("");
+  int lowest = -1;  // level of highest pressure with a height
+  for (int i = 0; i < n_levels; ++i)
+    if (p[i] > 0 && std::isfinite(z[i]) && (lowest < 0 || p[i] > p[lowest])) lowest = i;
+  if (lowest < 0) return std::nan("");
+  if (zs <= z[lowest]) {
+    const double t0 = t && std::isfinite(t[lowest]) ? t[lowest] : 288.15;  // ISO 2533 sea-level value if missing
+    const double ts = t0 + kLapseRate * (z[lowest] - zs);
+    return p[lowest] * std::pow(ts / t0, kGravity / (kRIcao * kLapseRate));
+  }
+  // Walk up from the lowest level: the first pair of levels (adjacent in pressure) around zs.
+  int below = lowest;
+  for (;;) {
+    int next = -1;  // the level next above `below`
+    for (int i = 0; i < n_levels; ++i)
+      if (p[i] > 0 && p[i] < p[below] && std::isfinite(z[i]) && (next < 0 || p[i] > p[next])) next = i;
+    if (next < 0) return std::nan("");  // surface above the highest level
+    if (z[next] >= zs) {
+      if (z[next] == z[below]) return p[below];
+      const double f = (zs - z[below]) / (z[next] - z[below]);
+      return std::exp(std::log(p[below]) + f * (std::log(p[next]) - std::log(p[below])));
+    }
+    below = next;
+  }
+}
+
 double dew_point_k(double vapour_pressure_pa) {
   const double l = std::log(vapour_pressure_pa / kEs0Pa);
   return kZeroCelsiusK + kEsB * l / (kEsA - l);
