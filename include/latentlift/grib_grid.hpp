@@ -38,7 +38,8 @@ struct GribGeometry {
 /// Geometry of a grid definition; InputError(file, "", ...) naming any grid type or parameter not handled.
 GribGeometry grib_geometry(const GribGridDefinition& grid, const std::string& file);
 
-/// Row-major index (row j * ni + column i) of the k-th stored value under the grid's scanning mode.
+/// Row-major index (row j * ni + column i) of the k-th value as ecCodes decodes it (alternating rows
+/// already turned round by ecCodes) under the grid's scanning mode.
 std::size_t grib_point_index(const GribGridDefinition& grid, std::size_t k);
 
 /// Earth figure (semi-major, semi-minor axis, m) of GRIB2 code table 3.2 shapeOfTheEarth (0-9 but 3, 7 given

@@ -68,14 +68,14 @@ void grib_earth_figure(long shape, double given_major_m, double given_minor_m, d
 std::size_t grib_point_index(const GribGridDefinition& g, std::size_t k) {
   const std::size_t ni = static_cast<std::size_t>(g.ni), nj = static_cast<std::size_t>(g.nj);
   std::size_t i, j;
+  // Rows scanned in alternating directions (flag table 3.4 bit 5) need nothing here: ecCodes
+  // returns such values already turned round to the direction of the first row.
   if (g.j_consecutive) {  // flag table 3.4 bit 3: adjacent points along j
     i = k / nj;
     j = k % nj;
-    if (g.alternate_rows && i % 2 == 1) j = nj - 1 - j;  // bit 4: every second row in the opposite direction
   } else {
     j = k / ni;
     i = k % ni;
-    if (g.alternate_rows && j % 2 == 1) i = ni - 1 - i;
   }
   return j * ni + i;
 }

@@ -147,7 +147,9 @@ geo::GribGridDefinition grid_definition(codes_handle* h, const std::string& wher
     g.rotation_deg = get_double(h, "angleOfRotationInDegrees", 0.0);
   }
   if (g.grid_type == "lambert" || g.grid_type == "polar_stereographic") {
-    g.lov = need_double(h, "LoVInDegrees", where);
+    // LoV: orientation of the grid (GRIB2 template 3.20 names it so, 3.30 LoV)
+    g.lov = codes_is_defined(h, "LoVInDegrees") ? need_double(h, "LoVInDegrees", where)
+                                                : need_double(h, "orientationOfTheGridInDegrees", where);
     g.dx_m = need_double(h, "DxInMetres", where);
     g.dy_m = need_double(h, "DyInMetres", where);
     g.south_pole = (get_long(h, "projectionCentreFlag", 0) & 128) != 0;

@@ -628,6 +628,11 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
   assign(&Found::surface_pressure, &Segment::surface_pressure, "surface air pressure", kSurfacePressure, false, false);
   assign(&Found::surface_height, &Segment::surface_height, "surface geopotential or orography", kSurfaceHeight, false,
          false);
+  for (Segment& segment : impl.segments) {  // a 2-D geopotential (height) found as surface height is one
+    std::string& q = segment.surface_height.quantity;
+    if (q == "geopotential_height") q = "surface_altitude";
+    if (q == "geopotential") q = "surface_geopotential";
+  }
   if (impl.segments[0].surface_pressure.present()) {
     impl.surface_pressure_source = SurfacePressureSource::input;
     for (Segment& segment : impl.segments) segment.surface_height = VarRef{};  // not needed
