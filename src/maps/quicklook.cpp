@@ -186,6 +186,34 @@ std::vector<std::string> split(const std::string& text) {
   return out;
 }
 
+/// Edit distance (Levenshtein 1966) between two names.
+std::size_t edit_distance(const std::string& a, const std::string& b) {
+  std::vector<std::size_t> row(b.size() + 1);
+  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
+  for (std::size_t i = 1; i <= a.size(); ++i) {
+    std::size_t diagonal = row[0];
+    row[0] = i;
+    for (std::size_t j = 1; j <= b.size(); ++j) {
+      const std::size_t up = row[j];
+      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] == b[j - 1] ? 0 : 1)});
+      diagonal = up;
+    }
+  }
+  return row[b.size()];
+}
+
+/// The fields of the file (variables on two or more dimensions), closest to `name` first.
+std::string closest_fields(const io::detail::NcFile& file, const std::string& name) {
+  std::vector<std::pair<std::size_t, std::string>> ranked;
+  for (const auto& v : io::detail::all_variables(file))
+    if (v.dim_names.size() >= 2 && v.type != NC_CHAR) ranked.push_back({edit_distance(name, v.name), v.name});
+  std::stable_sort(ranked.begin(), ranked.end(),
+                   [](const auto& x, const auto& y) { return x.first < y.first; });
+  std::string text;
+  for (const auto& [distance, field] : ranked) text += (text.empty() ? "" : ", ") + field;
+  return text.empty() ? "no fields" : text + " (closest first)";
+}
+
 }  // namespace
 
 QuicklookSummary quicklook_file(const std::string& input, const std::string& png_path, const QuicklookOptions& options) {
@@ -193,7 +221,7 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   if (!options.overwrite && fs::exists(png_path)) throw UsageError(png_path + " exists; use --overwrite to replace it");
   io::detail::NcFile file = io::detail::NcFile::open_read(input);
   auto var = io::detail::find_variable(file, options.field);
-  if (!var) throw InputError(input, options.field, "a variable of this name (see ncdump -h for the fields)");
+  if (!var) throw InputError(input, options.field, "a field of this name; the file has " + closest_fields(file, options.field));
   SourceGrid grid = grid_of(file, *var);
 
   // Leading indices: the time dimension takes --time, any other (levels) --level.

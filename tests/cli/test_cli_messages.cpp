@@ -57,5 +57,15 @@ TEST(CliMessages, RunSummaryNamesTheVariablesUsedAndTheSurfacePressureSource) {
   EXPECT_FALSE(f.text_att("", "surface_pressure_source").empty());
 }
 
+TEST(CliMessages, MisspeltFieldListsTheFieldsClosestFirst) {
+  const std::string dir = test_scratch();
+  ASSERT_EQ(run_command(binary() + " analyze " + quote(sample()) + " -o " + quote(dir + "/out.nc") + " --quiet").exit_code,
+            0);
+  CommandResult r = run_command(binary() + " quicklook " + quote(dir + "/out.nc") + " --field mu_cap -o " +
+                                quote(dir + "/map.png"));
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.output.find("the file has mu_cape, "), std::string::npos) << r.output;
+}
+
 }  // namespace
 }  // namespace latentlift::test::cli
