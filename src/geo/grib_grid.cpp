@@ -37,6 +37,23 @@ std::vector<double> spaced(double first, double last, long n, bool negative, boo
   return out;
 }
 
+/// Name, CF standard_name and units of a coordinate axis.
+struct Axis {
+  const char* name;
+  const char* standard_name;
+  const char* units;
+};
+
+void name_axes(GribGeometry& out, GribGeometry::Kind kind, Axis y, Axis x) {
+  out.kind = kind;
+  out.y_name = y.name;
+  out.x_name = x.name;
+  out.y_standard_name = y.standard_name;
+  out.x_standard_name = x.standard_name;
+  out.y_units = y.units;
+  out.x_units = x.units;
+}
+
 void check_size(const GribGridDefinition& g, const std::string& file) {
   if (g.ni <= 0 || g.nj <= 0)
     throw InputError(file, "", "a GRIB grid with rows and columns (" + g.grid_type + " with Ni=" + std::to_string(g.ni) +
@@ -85,13 +102,8 @@ GribGeometry grib_geometry(const GribGridDefinition& g, const std::string& file)
   GribGeometry out;
   const std::string& type = g.grid_type;
   if (type == "regular_ll" || type == "regular_gg") {
-    out.kind = GribGeometry::Kind::latlon;
-    out.y_name = "latitude";
-    out.x_name = "longitude";
-    out.y_standard_name = "latitude";
-    out.x_standard_name = "longitude";
-    out.y_units = "degrees_north";
-    out.x_units = "degrees_east";
+    name_axes(out, GribGeometry::Kind::latlon, {"latitude", "latitude", "degrees_north"},
+              {"longitude", "longitude", "degrees_east"});
     out.x = spaced(g.lon_first, g.lon_last, g.ni, g.i_negative, true);
     if (type == "regular_gg") {
       if (g.row_latitudes.size() != static_cast<std::size_t>(g.nj))
@@ -108,13 +120,7 @@ GribGeometry grib_geometry(const GribGridDefinition& g, const std::string& file)
     if (std::fabs(g.rotation_deg) > 1e-9)
       throw InputError(file, "angleOfRotationInDegrees", "a rotated grid with angle of rotation 0 (found " +
                                                              std::to_string(g.rotation_deg) + ")");
-    out.kind = GribGeometry::Kind::rotated;
-    out.y_name = "rlat";
-    out.x_name = "rlon";
-    out.y_standard_name = "grid_latitude";
-    out.x_standard_name = "grid_longitude";
-    out.y_units = "degrees";
-    out.x_units = "degrees";
+    name_axes(out, GribGeometry::Kind::rotated, {"rlat", "grid_latitude", "degrees"}, {"rlon", "grid_longitude", "degrees"});
     out.x = spaced(g.lon_first, g.lon_last, g.ni, g.i_negative, true);
     for (double& lon : out.x)
       if (lon > 180.0) lon -= 360.0;  // grid longitudes about the rotated Greenwich meridian
@@ -126,13 +132,8 @@ GribGeometry grib_geometry(const GribGridDefinition& g, const std::string& file)
     add_earth(out.grid_mapping, g);
     return out;
   }
-  out.kind = GribGeometry::Kind::projected;
-  out.y_name = "y";
-  out.x_name = "x";
-  out.y_standard_name = "projection_y_coordinate";
-  out.x_standard_name = "projection_x_coordinate";
-  out.y_units = "m";
-  out.x_units = "m";
+  name_axes(out, GribGeometry::Kind::projected, {"y", "projection_y_coordinate", "m"},
+            {"x", "projection_x_coordinate", "m"});
   AttributeList& m = out.grid_mapping;
   if (type == "lambert") {
     m.push_back({"grid_mapping_name", std::string("lambert_conformal_conic")});
