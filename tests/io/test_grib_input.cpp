@@ -4,6 +4,7 @@
 #include <eccodes.h>
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <functional>
@@ -257,6 +258,34 @@ TEST_F(GribInput, ValidityTimesAndMembersBecomeDimensions) {
   ColumnBlock block;
   input.read_block(3, {0, 20}, block);  // time 06 UTC, member 2
   EXPECT_NEAR(block.temp_k[0], 280.0 + 2 + 6, 1e-3);
+}
+
+TEST_F(GribInput, LevelsInPascalAndInHectopascalAreMatchedByValue) {
+  // Relative humidity on isobaricInPa levels (WMO code table 4.5: 100, isobaric surface, Pa), the rest in hPa.
+  GridKeys g = regular_ll(0);
+  const std::string file = path("mixed_units.grib2");
+  bool first = true;
+  for (std::size_t l = 0; l < kLevels.size(); ++l) {
+    std::vector<double> t(20, 290.0 - 10.0 * l), r(20, 40.0 + 10.0 * l), z(20, 100.0 + 1500.0 * l);
+    append(file, make_message(g, 130, kLevels[l], 20240101, 1200, 0, t), first);
+    first = false;
+    append(file, make_message(g, 156, kLevels[l], 20240101, 1200, 0, z), false);
+    Handle h = make_message(g, 157, kLevels[l], 20240101, 1200, 0, r);
+    ok(codes_set_string(h.get(), "typeOfLevel", "isobaricInPa", nullptr), "typeOfLevel");
+    ok(codes_set_long(h.get(), "level", kLevels[l] * 100), "level");
+    ok(codes_set_double_array(h.get(), "values", r.data(), r.size()), "values");
+    append(file, h, false);
+  }
+  InputDataset input({file}, {});
+  ASSERT_EQ(input.grid().pressure_pa.size(), 4u);
+  EXPECT_TRUE(input.common_levels_note().empty()) << input.common_levels_note();
+  ColumnBlock block;
+  input.read_block(0, {0, 20}, block);
+  for (std::size_t k = 0; k < 4; ++k) {  // the level of pressure p holds the humidity written for p
+    const double p_hpa = input.grid().pressure_pa[k] / 100.0;
+    const std::size_t l = std::find(kLevels.begin(), kLevels.end(), static_cast<long>(p_hpa)) - kLevels.begin();
+    EXPECT_NEAR(block.humidity[k], (40.0 + 10.0 * l) / 100.0, 1e-6) << p_hpa << " hPa";
+  }
 }
 
 TEST_F(GribInput, ReducedGaussianGridIsRefusedNamingIt) {
