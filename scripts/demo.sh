@@ -32,7 +32,7 @@ echo "      latentlift column sample_grids/$(basename "$input") --lat 39 --lon -
 echo
 echo "demo: a map of the most-unstable parcel's CAPE at 12 UTC:"
 echo "      latentlift quicklook out/$(basename "$output") --field mu_cape --time 1 -o out/demo_mu_cape.png"
-"$tool" quicklook "$output" --field mu_cape --time 1 -o "$(dirname "$output")/demo_mu_cape.png"
+"$tool" quicklook "$output" --field mu_cape --time 1 -o "$(dirname "$output")/demo_mu_cape.png" --overwrite
 
 echo
 echo "demo: header of the output (ncdump -h, first 60 lines):"

@@ -13,9 +13,11 @@ packages=(build-essential cmake pkg-config
   libeccodes-dev libeccodes-tools cdo
   libproj-dev proj-bin proj-data
   libudunits2-dev libtomlplusplus-dev libcli11-dev libpng-dev
+  libgdal-dev libcairo2-dev libfreetype-dev fonts-dejavu-core
+  libgmt-dev gmt-common gmt-gshhg-low gmt-gshhg-high
   libgtest-dev libgmock-dev libbenchmark-dev valgrind
   libopenmpi-dev openmpi-bin
-  ccache gdal-bin python3 python3-numpy python3-scipy python3-netcdf4)
+  ccache gdal-bin python3 python3-numpy python3-scipy python3-netcdf4 python3-colorspacious)
 
 missing=()
 for p in "${packages[@]}"; do

@@ -1,4 +1,5 @@
-// latentlift quicklook OUT.nc --field NAME [--time INDEX] [--level INDEX] [--range MIN,MAX] -o MAP.png
+// latentlift quicklook OUT.nc|STATS.nc --field NAME [--time INDEX] [--group NAME|INDEX] [--level INDEX]
+//                      [--range MIN,MAX] -o MAP.png [--overwrite]
 #include <cstdio>
 #include <memory>
 #include <string>
@@ -12,9 +13,9 @@ namespace latentlift::cli {
 namespace {
 
 struct QuicklookArgs {
-  std::string input, output, field, range;
+  std::string input, output, field, range, group;
   std::size_t time_index = 0, level_index = 0;
-  bool quiet = false;
+  bool quiet = false, overwrite = false;
 };
 
 int run_quicklook(const QuicklookArgs& args) {
@@ -22,6 +23,8 @@ int run_quicklook(const QuicklookArgs& args) {
   options.field = args.field;
   options.time_index = args.time_index;
   options.level_index = args.level_index;
+  options.group = args.group;
+  options.overwrite = args.overwrite;
   if (!args.range.empty()) {
     double low = 0, high = 0;
     char tail = 0;
@@ -35,13 +38,13 @@ int run_quicklook(const QuicklookArgs& args) {
                 args.field.c_str(), s.valid_time.c_str());
     std::printf("  map at (%d, %d), %d x %d px, %d px per cell\n", s.map_x, s.map_y, s.map_width, s.map_height,
                 s.pixels_per_cell);
+    std::printf("  map edges in the grid's CRS: west %.12g north %.12g, cell %.12g x %.12g\n", s.west, s.north, s.dx, s.dy);
     if (!s.classes)
-      std::printf("  colour steps: %d from %.10g to %.10g (step %.10g)\n", s.bins, s.low, s.low + s.bins * s.step, s.step);
-    if (!s.world_file.empty())
-      std::printf("  georeferenced by %s%s%s and %s\n", s.world_file.c_str(), s.prj_file.empty() ? "" : ", ",
-                  s.prj_file.c_str(), s.aux_file.c_str());
-    else
-      std::printf("  no world file: the grid is not regular (reproject it first for a georeferenced image)\n");
+      std::printf("  colour steps: %d from %.10g to %.10g (step %.10g)%s%s\n", s.bins, s.low, s.low + s.bins * s.step,
+                  s.step, s.below_range ? ", values below (pointed end)" : "", s.above_range ? ", values above (pointed end)" : "");
+    std::printf("  missing cells %zu, not applicable cells %zu\n", s.missing_cells, s.not_applicable_cells);
+    std::printf("  %s, graticule every %g degrees; a picture for people: for GIS use reproject --format cog\n",
+                s.shorelines.c_str(), s.graticule_step_deg);
   }
   return 0;
 }
@@ -56,10 +59,13 @@ void add_quicklook_command(CLI::App& app, int& exit_code) {
       ->check(CLI::ExistingFile);
   cmd->add_option("--field", args->field, "Field to draw, e.g. mu_cape or latent_class")->required();
   cmd->add_option("--time", args->time_index, "Time index (default 0)");
-  cmd->add_option("--level", args->level_index, "Level index for per-level fields (default 0)");
-  cmd->add_option("--range", args->range, "Colour bar MIN,MAX in field units (default: the data range)");
-  cmd->add_option("-o,--output", args->output, "Output PNG; a .pgw world file and .prj are written beside it")
-      ->required();
+  cmd->add_option("--group", args->group,
+                  "Climatology group: its label (Jan, DJF, 12UTC, all) or index (default: the first)");
+  cmd->add_option("--level", args->level_index, "Pressure-level index for per-level fields (default 0)");
+  cmd->add_option("--range", args->range,
+                  "Colour bar MIN,MAX in field units (default: 2nd to 98th percentile, rounded)");
+  cmd->add_option("-o,--output", args->output, "Output PNG (a picture for people, no world file)")->required();
+  cmd->add_flag("--overwrite", args->overwrite, "Replace an existing PNG");
   cmd->add_flag("--quiet", args->quiet, "No summary");
   cmd->callback([args, &exit_code] { exit_code = run_quicklook(*args); });
 }

@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <iterator>
 
 namespace latentlift::maps::detail {
 
@@ -41,13 +42,23 @@ std::uint8_t to_byte(double c) { return static_cast<std::uint8_t>(std::lround(st
 
 namespace {
 
-// The design path at u in [0, 1]: L* = 20 + 72 u, hue 290 - 190 u degrees (blue-violet through
-// cyan and green to yellow), chroma 24 up to u = 0.45 and rising as 24 + 50 ((u - 0.45) / 0.55)^1.5:
-// the sRGB gamut is narrowest for dark blue-cyan (about 27), and this path stays inside it with a
-// margin of about 3 units. The chroma reduction below is a safeguard only. Returns CIELAB and linear RGB.
+// Nodes of the design path (u, chroma, hue in degrees); L* = 20 + 74 u. The hue turns from
+// spruce (200) through steel blue (252), lavender (295) and rose (335) to blush (370 = 10).
+// Chroma follows the sRGB gamut, which is narrow for dark blue-green and for very light colours:
+// the path stays at least 1 unit inside it (checked at 201 points); the reduction below is a safeguard only.
+struct Node {
+  double u, chroma, hue;
+};
+constexpr Node kNodes[] = {{0.0, 14, 200}, {0.3, 26, 252}, {0.55, 34, 295}, {0.8, 24, 335}, {1.0, 8, 370}};
+
 void design_path(double u, double lab[3], double rgb[3]) {
-  double L = 20.0 + 72.0 * u, hue = (290.0 - 190.0 * u) * kPi / 180.0;
-  double chroma = 24.0 + 50.0 * std::pow(std::max(0.0, (u - 0.45) / 0.55), 1.5);
+  std::size_t k = 0;
+  while (k + 2 < std::size(kNodes) && u > kNodes[k + 1].u) ++k;
+  const Node& a = kNodes[k];
+  const Node& b = kNodes[k + 1];
+  double w = std::clamp((u - a.u) / (b.u - a.u), 0.0, 1.0);
+  double L = 20.0 + 74.0 * u, chroma = a.chroma + w * (b.chroma - a.chroma);
+  double hue = (a.hue + w * (b.hue - a.hue)) * kPi / 180.0;
   while (!lab_to_linear_rgb(L, chroma * std::cos(hue), chroma * std::sin(hue), rgb) && chroma > 0.0) chroma -= 0.25;
   lab[0] = L;
   lab[1] = chroma * std::cos(hue);
@@ -96,12 +107,17 @@ std::vector<Rgb> sequential_steps(int n) {
 }
 
 Rgb category_colour(int k) {
-  // Chosen for latentlift's class fields: pale blue-grey (none), amber, deep red, then distinct hues.
-  static const Rgb palette[] = {{190, 210, 228}, {246, 168, 70},  {196, 32, 48},  {60, 140, 90},
-                                {120, 90, 170},  {40, 120, 190},  {220, 110, 170}, {150, 110, 40},
-                                {90, 90, 90},    {20, 170, 170}};
+  // Our own, designed in CIELAB (L*, C*, hue): stone (92, 8, 95), copper (70, 48, 62), wine (36, 48, 10),
+  // teal (56, 30, 200), indigo (28, 32, 290), lime (82, 45, 115), orchid (62, 42, 328), moss (44, 26, 145),
+  // sky (76, 20, 245), umber (22, 12, 50). Lightness alternates so that neighbours in the legend
+  // differ in grey too.
+  static const Rgb palette[] = {{237, 232, 217}, {230, 154, 95},  {153, 44, 73},  {40, 148, 151},
+                                {52, 63, 112},   {195, 212, 126}, {194, 127, 190}, {75, 113, 79},
+                                {149, 193, 220}, {68, 48, 39}};
   return palette[((k % 10) + 10) % 10];
 }
+
+Rgb not_applicable_colour() { return {230, 207, 161}; }  // CIELAB L* 84, C* 26, hue 88
 
 std::array<double, 3> srgb_to_lab(Rgb colour) {
   double r = gamma_decode(colour[0] / 255.0), g = gamma_decode(colour[1] / 255.0), b = gamma_decode(colour[2] / 255.0);
@@ -140,6 +156,20 @@ ColourBins nice_bins(double min, double max, int max_bins) {
     step *= 2.0;  // floor() of the low edge can add one bin too many
   }
   return bins;
+}
+
+}  // namespace latentlift::maps::detail
+
+namespace latentlift::maps::detail {
+
+double percentile(std::vector<double> values, double p) {
+  values.erase(std::remove_if(values.begin(), values.end(), [](double v) { return !std::isfinite(v); }), values.end());
+  if (values.empty()) return std::nan("");
+  std::sort(values.begin(), values.end());
+  double h = (static_cast<double>(values.size()) - 1.0) * std::clamp(p, 0.0, 100.0) / 100.0;
+  auto lo = static_cast<std::size_t>(std::floor(h));
+  std::size_t hi = std::min(lo + 1, values.size() - 1);
+  return values[lo] + (h - static_cast<double>(lo)) * (values[hi] - values[lo]);
 }
 
 }  // namespace latentlift::maps::detail

@@ -1,12 +1,15 @@
 // latentlift reproject: every field of an analyze output onto a regular map grid.
 #include "latentlift/reproject.hpp"
 
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <filesystem>
 #include <map>
 #include <set>
 
+#include "maps/cf_time_text.hpp"
+#include "maps/cog_writer.hpp"
 #include "io/netcdf_file.hpp"
 #include "maps/resample.hpp"
 #include "maps/source_grid.hpp"
@@ -19,6 +22,12 @@ ResampleMethod parse_resample_method(const std::string& text) {
   if (text == "nearest") return ResampleMethod::nearest;
   if (text == "bilinear") return ResampleMethod::bilinear;
   throw UsageError("--method must be nearest or bilinear, not '" + text + "'");
+}
+
+MapFormat parse_map_format(const std::string& text) {
+  if (text == "netcdf") return MapFormat::netcdf;
+  if (text == "cog") return MapFormat::cog;
+  throw UsageError("--format must be netcdf or cog, not '" + text + "'");
 }
 
 namespace {
@@ -65,6 +74,79 @@ struct OutputField {
   double fill = 0;
 };
 
+using io::detail::NcFile;
+using io::detail::VarInfo;
+using io::detail::find_variable;
+using io::detail::number_attribute;
+using io::detail::read_doubles;
+using io::detail::text_attribute;
+
+// One field as a COG: one band per time step (or the one --time), north row first.
+void write_cog_layer(const NcFile& in, const VarInfo& field, bool classes, const SourceGrid& grid,
+                     const TargetGrid& target, const ResamplePlan& plan, const ReprojectOptions& options,
+                     const std::string& output) {
+  CogLayer layer;
+  layer.nx = static_cast<int>(target.nx);
+  layer.ny = static_cast<int>(target.ny);
+  layer.west = target.west;
+  layer.north = target.north();
+  layer.resolution = target.resolution;
+  layer.crs_wkt = target.crs.wkt();
+  layer.classes = classes;
+  layer.field = field.name;
+  layer.units = text_attribute(in, field.id, "units").value_or("");
+  layer.long_name = text_attribute(in, field.id, "long_name").value_or("");
+  if (auto values = number_attribute(in, field.id, "flag_values")) {
+    std::string text;
+    for (double v : *values) text += (text.empty() ? "" : " ") + format_number(v);
+    layer.flag_values = text;
+  }
+  layer.flag_meanings = text_attribute(in, field.id, "flag_meanings").value_or("");
+  layer.source = io::detail::utc_timestamp() + " latentlift reproject " + in.path() + " --format cog --field " +
+                 field.name + " --crs " + options.crs + " --resolution " + format_number(options.resolution);
+  std::size_t lead = field.dim_names.size() - grid.dims.size();
+  // Leading dimensions: one of them may be time (one band per step); any other must have length 1.
+  std::optional<std::size_t> time_dim;
+  std::vector<double> times;
+  std::string time_units, calendar;
+  for (std::size_t k = 0; k < lead; ++k) {
+    auto coordinate = find_variable(in, field.dim_names[k]);
+    std::string units = coordinate ? text_attribute(in, coordinate->id, "units").value_or("") : "";
+    if (units.find(" since ") != std::string::npos || field.dim_names[k] == "time") {
+      time_dim = k;
+      if (coordinate && coordinate->dim_names.size() == 1) times = read_doubles(in, *coordinate);
+      time_units = units;
+      calendar = coordinate ? text_attribute(in, coordinate->id, "calendar").value_or("") : "";
+    } else if (field.shape[k] != 1) {
+      throw UsageError("--format cog: " + field.name + " has the dimension '" + field.dim_names[k] +
+                       "' besides time; a COG layer holds one time series of a 2-D field");
+    }
+  }
+  if (options.time_index && !time_dim) throw UsageError("--time given but " + field.name + " has no time dimension");
+  std::size_t steps = time_dim ? field.shape[*time_dim] : 1;
+  if (options.time_index && *options.time_index >= steps)
+    throw UsageError("--time " + std::to_string(*options.time_index) + " is beyond the " + std::to_string(steps) +
+                     " time steps of " + in.path());
+  std::size_t first = options.time_index.value_or(0), last = options.time_index ? first + 1 : steps;
+  bool bilinear = !classes && options.method != ResampleMethod::nearest && plan.has_bilinear();
+  std::vector<double> resampled;
+  for (std::size_t t = first; t < last; ++t) {
+    std::vector<std::size_t> index(lead, 0);
+    if (time_dim) index[*time_dim] = t;
+    std::vector<double> values = read_slice(in, field, grid, index);
+    if (bilinear) plan.bilinear(values, resampled); else plan.nearest(values, resampled);
+    std::vector<double> band(resampled.size());
+    for (std::size_t j = 0; j < target.ny; ++j)  // target rows run south to north; GeoTIFF rows north first
+      std::copy_n(resampled.begin() + static_cast<std::ptrdiff_t>(j * target.nx), target.nx,
+                  band.begin() + static_cast<std::ptrdiff_t>((target.ny - 1 - j) * target.nx));
+    layer.bands.push_back(std::move(band));
+    layer.band_times.push_back(t < times.size() ? iso_time(times[t], time_units, calendar) : "");
+  }
+  io::detail::TemporaryOutput staged(output);  // removed unless committed
+  write_cog(staged.path(), layer);
+  staged.commit();
+}
+
 }  // namespace
 
 ReprojectSummary reproject_file(const std::string& input, const std::string& output, const ReprojectOptions& options) {
@@ -98,8 +180,17 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
 
   std::vector<io::detail::VarInfo> fields;
   for (const auto& var : variables)
-    if (is_field_on(in, var, *grid)) fields.push_back(var);
+    if (is_field_on(in, var, *grid) &&
+        (options.fields.empty() || std::find(options.fields.begin(), options.fields.end(), var.name) != options.fields.end()))
+      fields.push_back(var);
+  for (const auto& name : options.fields)
+    if (std::none_of(fields.begin(), fields.end(), [&](const io::detail::VarInfo& v) { return v.name == name; }))
+      throw InputError(input, name, "a field of this name on the horizontal grid (see ncdump -h for the fields)");
   if (fields.empty()) throw InputError(input, "", "at least one field to reproject");
+  if (options.format == MapFormat::cog && fields.size() != 1)
+    throw UsageError("--format cog writes one field: give it with --field NAME");
+  if (options.format == MapFormat::netcdf && options.time_index)
+    throw UsageError("--time selects the time step of a COG layer (--format cog); NetCDF maps keep every step");
 
   bool any_bilinear = false;
   std::vector<bool> classes(fields.size());
@@ -112,8 +203,18 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
   TargetGrid target = make_target_grid(*grid, target_crs, options.resolution, options.bbox);
   ResamplePlan plan(*grid, target, any_bilinear);
 
-  io::detail::TemporaryOutput staged(output);  // removed unless committed
   ReprojectSummary summary;
+  summary.nx = target.nx;
+  summary.ny = target.ny;
+  summary.fields = fields.size();
+  summary.bbox = {target.west, target.south, target.east(), target.north()};
+  summary.crs_name = target_crs.name();
+  if (options.format == MapFormat::cog) {
+    write_cog_layer(in, fields.front(), classes.front(), *grid, target, plan, options, output);
+    return summary;
+  }
+
+  io::detail::TemporaryOutput staged(output);  // removed unless committed
   {
     io::detail::NcFile out = io::detail::NcFile::create_netcdf4(staged.path());
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);
@@ -269,11 +370,6 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
     out.close();
   }
   staged.commit();
-  summary.nx = target.nx;
-  summary.ny = target.ny;
-  summary.fields = fields.size();
-  summary.bbox = {target.west, target.south, target.east(), target.north()};
-  summary.crs_name = target_crs.name();
   return summary;
 }
 

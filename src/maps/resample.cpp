@@ -3,7 +3,9 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdlib>
 #include <limits>
+#include <tuple>
 
 #include "maps/spatial_index.hpp"
 #include "latentlift/errors.hpp"
@@ -92,6 +94,103 @@ struct Axis1D {
   }
 };
 
+
+// Web Mercator and other Mercator maps end at +-85.0511 degrees (the latitude where the square
+// world map ends, EPSG:3857 "area of use"); the poles lie at infinity.
+using geo::Crs;
+using geo::Transformer;
+
+constexpr double kMercatorLimitDeg = 85.05112877980659;
+
+double central_meridian(const Crs& crs) {
+  const std::string& proj = crs.proj_string();
+  auto at = proj.find("+lon_0=");
+  return at == std::string::npos ? 0.0 : std::atof(proj.c_str() + at + 7);
+}
+
+// The source grid's extent in crs (west, south, east, north). Longitudes are taken once: a grid
+// that goes round the globe (0..360 or -180..180) covers the target's whole longitude window around
+// its central meridian; a regional grid across the antimeridian keeps its contiguous span.
+std::tuple<double, double, double, double> default_extent(const SourceGrid& source, const Crs& crs) {
+  std::vector<double> xs, ys;
+  bool global_axis = false;
+  if (source.kind == SourceGrid::Kind::rectilinear) {
+    // The outline of the source cells (centres widened by half a cell) and an interior lattice.
+    auto widened = [](const std::vector<double>& c, double t) {
+      double half = c.size() > 1 ? 0.5 * (c[1] - c[0]) : 0.0, half_end = c.size() > 1 ? 0.5 * (c.back() - c[c.size() - 2]) : 0.0;
+      double a = c.front() - half, b = c.back() + half_end;
+      return a + (b - a) * t;
+    };
+    const int k = 64;
+    for (int p = 0; p <= k; ++p)
+      for (int q = 0; q <= k; ++q) {
+        if (p != 0 && p != k && q != 0 && q != k && (p % 4 || q % 4)) continue;
+        xs.push_back(widened(source.x, p / double(k)));
+        ys.push_back(widened(source.y, q / double(k)));
+      }
+    if (source.crs->is_geographic() && !source.crs->is_rotated_pole())
+      global_axis = std::fabs(widened(source.x, 1.0) - widened(source.x, 0.0)) >= 360.0 - 1e-6;
+  } else {
+    std::size_t stride = std::max<std::size_t>(1, source.lon.size() / 200000);
+    for (std::size_t i = 0; i < source.lon.size(); i += stride) {
+      xs.push_back(source.lon[i]);
+      ys.push_back(source.lat[i]);
+    }
+  }
+  // Longitudes and latitudes on the target's own datum.
+  Crs lonlat = crs.geodetic();
+  Transformer(*source.crs, lonlat).forward(xs.data(), ys.data(), xs.size());
+  std::vector<double> lons;
+  double south = HUGE_VAL, north = -HUGE_VAL;
+  for (std::size_t i = 0; i < xs.size(); ++i) {
+    if (std::isnan(xs[i]) || std::isnan(ys[i])) continue;
+    lons.push_back(xs[i] - 360.0 * std::floor((xs[i] + 180.0) / 360.0));  // [-180, 180)
+    south = std::min(south, ys[i]);
+    north = std::max(north, ys[i]);
+  }
+  if (lons.empty()) throw UsageError("the source grid does not map into " + crs.name() + "; give --bbox");
+  bool mercator = crs.proj_string().find("+proj=merc") != std::string::npos;
+  if (mercator) {
+    south = std::max(south, -kMercatorLimitDeg);
+    north = std::min(north, kMercatorLimitDeg);
+  }
+  // The longitude window: the complement of the largest gap between sampled longitudes.
+  std::sort(lons.begin(), lons.end());
+  double gap = lons.front() + 360.0 - lons.back(), start = lons.front();
+  for (std::size_t i = 1; i < lons.size(); ++i)
+    if (lons[i] - lons[i - 1] > gap) gap = lons[i] - lons[i - 1], start = lons[i];
+  bool global = global_axis || gap < 12.0;  // samples are at most 360 / 16 degrees apart on a global grid
+  double lon_west = global ? central_meridian(crs) - 180.0 : start, lon_east = global ? lon_west + 360.0 : start + 360.0 - gap;
+  if (crs.is_geographic()) return {lon_west, std::max(south, -90.0), lon_east, std::min(north, 90.0)};
+
+  // Projected: the sampled points with their longitudes in the window, plus the window's edges.
+  std::vector<double> px, py;
+  for (std::size_t i = 0; i < xs.size(); ++i) {
+    if (std::isnan(xs[i]) || std::isnan(ys[i])) continue;
+    px.push_back(lon_west + std::fmod(std::fmod(xs[i] - lon_west, 360.0) + 360.0, 360.0));
+    py.push_back(std::clamp(ys[i], south, north));
+  }
+  if (global)
+    for (int q = 0; q <= 256; ++q) {
+      double lat = south + (north - south) * q / 256.0;
+      for (double lon : {lon_west + 1e-9, lon_east - 1e-9, central_meridian(crs)}) {
+        px.push_back(lon);
+        py.push_back(lat);
+      }
+    }
+  Transformer(lonlat, crs).forward(px.data(), py.data(), px.size());
+  double west = HUGE_VAL, east = -HUGE_VAL, y0 = HUGE_VAL, y1 = -HUGE_VAL;
+  for (std::size_t i = 0; i < px.size(); ++i) {
+    if (!std::isfinite(px[i]) || !std::isfinite(py[i])) continue;
+    west = std::min(west, px[i]);
+    east = std::max(east, px[i]);
+    y0 = std::min(y0, py[i]);
+    y1 = std::max(y1, py[i]);
+  }
+  if (!(east >= west)) throw UsageError("the source grid does not map into " + crs.name() + "; give --bbox");
+  return {west, y0, east, y1};
+}
+
 }  // namespace
 
 TargetGrid make_target_grid(const SourceGrid& source, const geo::Crs& crs, double resolution,
@@ -104,43 +203,16 @@ TargetGrid make_target_grid(const SourceGrid& source, const geo::Crs& crs, doubl
     std::tie(west, south, east, north) = std::tuple((*bbox)[0], (*bbox)[1], (*bbox)[2], (*bbox)[3]);
     if (!(east > west && north > south)) throw UsageError("--bbox needs W,S,E,N with W < E and S < N");
   } else {
-    std::vector<double> xs, ys;
-    if (source.kind == SourceGrid::Kind::rectilinear) {
-      // The outline of the source cells (centres widened by half a cell) and an interior lattice.
-      auto widened = [](const std::vector<double>& c, double t) {
-        double half = c.size() > 1 ? 0.5 * (c[1] - c[0]) : 0.0, half_end = c.size() > 1 ? 0.5 * (c.back() - c[c.size() - 2]) : 0.0;
-        double a = c.front() - half, b = c.back() + half_end;
-        return a + (b - a) * t;
-      };
-      const int k = 64;
-      for (int p = 0; p <= k; ++p)
-        for (int q = 0; q <= k; ++q) {
-          if (p != 0 && p != k && q != 0 && q != k && (p % 8 || q % 8)) continue;
-          xs.push_back(widened(source.x, p / double(k)));
-          ys.push_back(widened(source.y, q / double(k)));
-        }
-    } else {
-      std::size_t stride = std::max<std::size_t>(1, source.lon.size() / 200000);
-      for (std::size_t i = 0; i < source.lon.size(); i += stride) {
-        xs.push_back(source.lon[i]);
-        ys.push_back(source.lat[i]);
-      }
+    std::tie(west, south, east, north) = default_extent(source, crs);
+    west = std::floor(west / resolution + 1e-9) * resolution;  // outward to whole cells
+    south = std::floor(south / resolution + 1e-9) * resolution;
+    east = std::ceil(east / resolution - 1e-9) * resolution;
+    north = std::ceil(north / resolution - 1e-9) * resolution;
+    if (crs.is_geographic()) {  // snapping never adds a second copy of a longitude or passes a pole
+      if (east - west > 360.0) east = west + std::floor(360.0 / resolution + 1e-9) * resolution;
+      south = std::max(south, -90.0);
+      north = std::min(north, 90.0);
     }
-    geo::Transformer(*source.crs, crs).forward(xs.data(), ys.data(), xs.size());
-    west = south = HUGE_VAL;
-    east = north = -HUGE_VAL;
-    for (std::size_t i = 0; i < xs.size(); ++i) {
-      if (std::isnan(xs[i])) continue;
-      west = std::min(west, xs[i]);
-      east = std::max(east, xs[i]);
-      south = std::min(south, ys[i]);
-      north = std::max(north, ys[i]);
-    }
-    if (!(east >= west)) throw UsageError("the source grid does not map into " + crs.name() + "; give --bbox");
-    west = std::floor(west / resolution) * resolution;
-    south = std::floor(south / resolution) * resolution;
-    east = std::ceil(east / resolution) * resolution;
-    north = std::ceil(north / resolution) * resolution;
   }
   double nx = std::ceil((east - west) / resolution - 1e-9), ny = std::ceil((north - south) / resolution - 1e-9);
   if (nx < 1 || ny < 1 || nx * ny > 5e7)

@@ -710,7 +710,7 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   Writer w{out.id(), tmp};
   const int nc = out.id();
 
-  std::set<std::string> own = {"time", "climatology_bounds", "time_bnds", "group_label", "valid_time", "count",
+  std::set<std::string> own = {"group", "time", "climatology_bounds", "time_bnds", "group_label", "valid_time", "count",
                                "latent_count", "real_latent_count", "latent_frequency", "real_latent_frequency",
                                "stability_class", "stability_class_count"};
   for (const auto& s : specs)
@@ -764,6 +764,11 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   const int v_bounds = w.def_var(bounds_name, NC_DOUBLE, {dim_group, dim_nv});
   put_text(nc, v_bounds, "units", kTimeUnits, tmp);
   put_text(nc, v_bounds, "calendar", "standard", tmp);
+  // The group dimension's own coordinate variable (its index; the axis of climatological time, CF 4),
+  // so that readers such as GDAL find one coordinate for it instead of choosing among time and group_label.
+  const int v_group = w.def_var("group", NC_INT, {dim_group});
+  put_text(nc, v_group, "long_name", "index of the group of valid times (labels in group_label, times in time)", tmp);
+  put_text(nc, v_group, "axis", "T", tmp);
   const int v_label = w.def_var("group_label", NC_STRING, {dim_group});
   put_text(nc, v_label, "long_name", std::string("group of valid times (") + to_string(meta.group_by) + ")", tmp);
   const int v_vt = w.def_var("valid_time", NC_INT64, {dim_vt}, true);
@@ -933,6 +938,11 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
   }
   check(nc_put_var_double(nc, v_time, tv.data()), tmp, "writing time");
   check(nc_put_var_double(nc, v_bounds, tb.data()), tmp, "writing time bounds");
+  {
+    std::vector<int> index(static_cast<size_t>(groups));
+    for (int g = 0; g < groups; ++g) index[static_cast<size_t>(g)] = g;
+    check(nc_put_var_int(nc, v_group, index.data()), tmp, "writing group");
+  }
   {
     const auto labels = group_labels(meta.group_by);
     std::vector<const char*> ptrs;

@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <filesystem>
+#include <regex>
 #include <set>
 #include <string>
 
@@ -281,6 +282,135 @@ TEST(Reproject, MalformedBboxIsAUsageError) {
     auto result = run_command(binary() + " reproject " + in + " -o " + dir + "/x.nc --resolution 1 --bbox " + bbox);
     EXPECT_EQ(result.exit_code, 2) << bbox << ": " << result.output;
   }
+}
+
+
+// --- extents (defaults without --bbox) ---
+
+std::vector<double> extent_of(const std::string& output) {  // W S E N from the summary line
+  std::smatch m;
+  std::regex_search(output, m, std::regex(R"(extent W (\S+) S (\S+) E (\S+) N (\S+))"));
+  if (m.size() != 5) return {};
+  return {std::stod(m[1]), std::stod(m[2]), std::stod(m[3]), std::stod(m[4])};
+}
+
+TEST(ReprojectExtent, ZeroTo360GridCoversEveryLongitudeOnceInLatLon) {
+  // A global 2.5 degree grid in 0..357.5 E (the layout of NCEP's GFS): all longitudes, once: -180..180.
+  std::string dir = scratch_dir("maps_extent_0360");
+  std::string in = make_cf_grid(dir, "none", "--grid 0 2.5 -90 2.5 --nx 144 --ny 73 --times 1");
+  auto e = extent_of(reproject(in, dir + "/ll.nc", "--crs EPSG:4326 --resolution 1"));
+  ASSERT_EQ(e.size(), 4u);
+  EXPECT_DOUBLE_EQ(e[0], -180.0);
+  EXPECT_DOUBLE_EQ(e[2], 180.0);
+  EXPECT_DOUBLE_EQ(e[1], -90.0);
+  EXPECT_DOUBLE_EQ(e[3], 90.0);
+}
+
+TEST(ReprojectExtent, ZeroTo360GridInWebMercatorStopsAt85Degrees) {
+  // EPSG:3857 spans x and y of +-20037508.34 m, its edge at 85.0511 degrees (EPSG registry, the
+  // CRS's bounds; y checked with PROJ's cs2cs). The extent is snapped outward to whole 100 km cells.
+  std::string dir = scratch_dir("maps_extent_mercator");
+  std::string in = make_cf_grid(dir, "none", "--grid 0 2.5 -90 2.5 --nx 144 --ny 73 --times 1");
+  auto e = extent_of(reproject(in, dir + "/wm.nc", "--crs EPSG:3857 --resolution 100000"));
+  ASSERT_EQ(e.size(), 4u);
+  auto r = run_command("echo 85.0511287798 180 | cs2cs -f %.3f EPSG:4326 EPSG:3857");  // EPSG:4326 is lat, lon
+  auto xy = numbers_of(r.output);
+  ASSERT_GE(xy.size(), 2u) << r.output;
+  const double edge = std::max(std::fabs(xy[0]), std::fabs(xy[1]));  // 20037508.34 m
+  EXPECT_NEAR(edge, 20037508.34, 1.0);
+  for (double v : e) {
+    EXPECT_GE(std::fabs(v), edge - 1.0) << "the world is cut short";
+    EXPECT_LT(std::fabs(v), edge + 100000.0) << "beyond Web Mercator's edge by more than a cell";
+  }
+}
+
+TEST(ReprojectExtent, GridAcrossTheAntimeridianKeepsItsOwnSpan) {
+  // 150 E to 150.25 W (209.75 E) at 0.5 degree: 60 degrees wide, not the whole globe.
+  std::string dir = scratch_dir("maps_extent_antimeridian");
+  std::string in = make_cf_grid(dir, "none", "--grid 150.25 0.5 -19.75 0.5 --nx 120 --ny 40 --times 1");
+  auto e = extent_of(reproject(in, dir + "/ll.nc", "--crs EPSG:4326 --resolution 0.5"));
+  ASSERT_EQ(e.size(), 4u);
+  EXPECT_DOUBLE_EQ(e[0], 150.0);
+  EXPECT_DOUBLE_EQ(e[2], 210.0);
+  Field f = read_field(dir + "/ll.nc", "mu_cape", "lon", "lat");
+  std::size_t missing = 0;
+  for (double v : f.values) missing += v == f.fill;
+  EXPECT_EQ(missing, 0u) << "every target cell lies on the source grid";
+}
+
+// --- Cloud-Optimized GeoTIFF layers ---
+
+// gdalinfo -json of a GeoTIFF, reduced by a Python expression over d (the parsed JSON).
+std::string gdal_json(const std::string& path, const std::string& expression) {
+  auto r = run_command("gdalinfo -json " + path + " | " + python() + " -c \"import json,sys; d=json.load(sys.stdin); print(" +
+                       expression + ")\"");
+  EXPECT_EQ(r.exit_code, 0) << r.output;
+  return r.output;
+}
+
+TEST(ReprojectCog, GdalinfoReportsCogLayoutCrsNodataAndOverviews) {
+  std::string dir = scratch_dir("maps_cog_layout");
+  std::string in = make_cf_grid(dir, "lambert_conformal_conic");
+  std::string out = dir + "/cape.tif";
+  reproject(in, out, "--format cog --field mu_cape --crs EPSG:32632 --resolution 1000 --bbox 300000,4800000,900000,5200000");
+  EXPECT_EQ(gdal_json(out, "d['metadata']['IMAGE_STRUCTURE']['LAYOUT']"), "COG\n");
+  EXPECT_NE(gdal_json(out, "d['coordinateSystem']['wkt']").find("UTM zone 32N"), std::string::npos);
+  EXPECT_EQ(gdal_json(out, "d['bands'][0]['type'], d['bands'][0]['noDataValue']"), "Float32 -9999.0\n");
+  EXPECT_EQ(gdal_json(out, "len(d['bands']), len(d['bands'][0]['overviews']) > 0"), "2 True\n");  // two time steps
+  EXPECT_EQ(gdal_json(out, "d['geoTransform']"), "[300000.0, 1000.0, 0.0, 5200000.0, 0.0, -1000.0]\n");
+}
+
+TEST(ReprojectCog, BandsCarryValidTimeUnitsAndLongName) {
+  // make_cf_grid.py: time = 0 and 6 hours since 2031-07-14 00:00.
+  std::string dir = scratch_dir("maps_cog_metadata");
+  std::string in = make_cf_grid(dir, "none");
+  std::string out = dir + "/cape.tif";
+  reproject(in, out, "--format cog --field mu_cape --crs EPSG:4326 --resolution 0.5");
+  EXPECT_EQ(gdal_json(out, "d['bands'][1]['metadata']['']['valid_time'], d['bands'][1]['metadata']['']['units']"),
+            "2031-07-14T06:00:00Z J kg-1\n");
+  EXPECT_EQ(gdal_json(out, "d['bands'][0]['metadata']['']['long_name']"), "CAPE of the most-unstable parcel\n");
+  reproject(in, dir + "/one.tif", "--format cog --field mu_cape --time 1 --crs EPSG:4326 --resolution 0.5");
+  EXPECT_EQ(gdal_json(dir + "/one.tif", "len(d['bands']), d['bands'][0]['metadata']['']['valid_time']"),
+            "1 2031-07-14T06:00:00Z\n");
+}
+
+TEST(ReprojectCog, GdallocationinfoReturnsTheFieldValues) {
+  // The target grid is the source's own 0.5 degree lat/lon grid, so every COG cell holds its source
+  // cell's value (float32); GDAL's gdallocationinfo reads them at the source cell centres.
+  std::string dir = scratch_dir("maps_cog_values");
+  std::string in = make_cf_grid(dir, "none");
+  std::string out = dir + "/cape.tif";
+  reproject(in, out, "--format cog --field mu_cape --crs EPSG:4326 --resolution 0.5 --method nearest --bbox -0.25,39.75,11.75,48.75");
+  Field f = read_field(in, "mu_cape", "lon", "lat");
+  std::string points;
+  std::vector<double> expected;
+  for (std::size_t j = 0; j < f.y.size(); j += 5)
+    for (std::size_t i = 0; i < f.x.size(); i += 5) {
+      points += std::to_string(f.x[i]) + " " + std::to_string(f.y[j]) + "\\n";
+      expected.push_back(f.values[j * f.x.size() + i]);  // time step 0, band 1
+    }
+  auto r = run_command("printf -- '" + points + "' | gdallocationinfo -valonly -b 1 -geoloc " + out);
+  auto values = numbers_of(r.output);
+  ASSERT_EQ(values.size(), expected.size()) << r.output;
+  for (std::size_t k = 0; k < values.size(); ++k) EXPECT_NEAR(values[k], expected[k], 1e-3 * std::fabs(expected[k])) << k;
+}
+
+TEST(ReprojectCog, ClassesAreBytesWithNodata255) {
+  std::string dir = scratch_dir("maps_cog_classes");
+  std::string in = make_cf_grid(dir, "none");
+  std::string out = dir + "/class.tif";
+  reproject(in, out, "--format cog --field latent_class --crs EPSG:4326 --resolution 0.5");
+  EXPECT_EQ(gdal_json(out, "d['bands'][0]['type'], d['bands'][0]['noDataValue'], d['metadata']['']['flag_meanings']"),
+            "Byte 255.0 none pseudo_latent real_latent\n");
+}
+
+TEST(ReprojectCog, CogNeedsExactlyOneField) {
+  std::string dir = scratch_dir("maps_cog_one_field");
+  std::string in = make_cf_grid(dir, "none");
+  auto r = run_command(binary() + " reproject " + in + " -o " + dir + "/x.tif --crs EPSG:4326 --resolution 1");
+  EXPECT_EQ(r.exit_code, 2) << r.output;
+  EXPECT_NE(r.output.find("--field"), std::string::npos) << r.output;
+  EXPECT_FALSE(fs::exists(dir + "/x.tif"));
 }
 
 }  // namespace

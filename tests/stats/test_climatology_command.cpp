@@ -78,6 +78,19 @@ TEST(ClimatologyCommand, SeasonalAndOverallStatisticsMatchTheNumPyReference) {
   }
 }
 
+TEST(ClimatologyCommand, GdalOpensTheClimatologyWithoutWarnings) {
+  // GDAL (gdalinfo, a real GIS client) needs one coordinate per dimension: "Several 1D variables are
+  // indexed by dimension group" or "not a Time or Vertical dimension" warnings mean it could not tell.
+  const std::string dir = t::scratch_dir("clim_gdal");
+  const std::string inputs = generate(dir, "--files 1 --times 4");
+  auto r = climatology(inputs + " -o " + dir + "/stats.nc --group season");
+  ASSERT_EQ(r.exit_code, 0) << r.output;
+  auto info = t::run_command("gdalinfo NETCDF:" + dir + "/stats.nc:mu_cape_mean");
+  EXPECT_EQ(info.exit_code, 0) << info.output;
+  EXPECT_EQ(info.output.find("Warning"), std::string::npos) << info.output;
+  EXPECT_NE(info.output.find("Band 4"), std::string::npos) << "one band per season: " << info.output;
+}
+
 TEST(ClimatologyCommand, UpdateWithTheRestEqualsOneRunOverAll) {
   const std::string dir = t::scratch_dir("clim_update");
   const std::string inputs = generate(dir, "--levels 3");

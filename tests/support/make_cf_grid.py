@@ -5,6 +5,8 @@ Fields (formulas known to the tests):
   mu_cape(time, y, x)            = 1000 + 500 sin(x / lx) cos(y / ly) + 10 t   [J kg-1]
   latent_layer_depth(time, y, x) = 100 + i + 2 j, missing where i < 2 and j < 2 [hPa]
   latent_class(time, y, x)       = (i // 3 + j // 3) % 3  (byte flags 0, 1, 2)
+Options change these for particular tests (--constant, --outlier, --class-missing-corner) or write a
+climatology by season instead (--groups).
 x, y are the native coordinates (m, or degrees for lat/lon and rotated pole);
 i, j the column and row indices.
 """
@@ -66,6 +68,13 @@ def main():
     p.add_argument("--lx", type=float, default=None)
     p.add_argument("--ly", type=float, default=None)
     p.add_argument("--times", type=int, default=2)
+    p.add_argument("--constant", type=float, default=None, help="mu_cape = this value everywhere")
+    p.add_argument("--outlier", type=float, default=None, help="mu_cape = this value in cell (0, 0)")
+    p.add_argument("--class-missing-corner", action="store_true",
+                   help="latent_class missing in cell (0, 0): that column was not analysed")
+    p.add_argument("--groups", action="store_true",
+                   help="a climatology by season: dimension group (DJF MAM JJA SON) instead of time, "
+                        "mu_cape_mean = 100 (g + 1) and count = 5")
     a = p.parse_args()
 
     x0, dx, y0, dy = a.grid or GRIDS.get(a.mapping, (-200e3, 20e3, -150e3, 20e3))
@@ -80,12 +89,25 @@ def main():
         ds.Conventions = "CF-1.8"
         ds.title = "latentlift analysis (test grid)"
         ds.setncattr("analysis_buoyancy", "virtual")
-        ds.createDimension("time", a.times)
-        t = ds.createVariable("time", "f8", ("time",))
-        t.standard_name = "time"
-        t.units = "hours since 2031-07-14 00:00:00"
-        t.calendar = "standard"
-        t[:] = 6.0 * np.arange(a.times)
+        if a.groups:
+            a.times = 4
+            ds.createDimension("group", 4)
+            g = ds.createVariable("group", "i4", ("group",))
+            g[:] = np.arange(4)
+            labels = ds.createVariable("group_label", str, ("group",))
+            for k, name in enumerate(["DJF", "MAM", "JJA", "SON"]):
+                labels[k] = name
+            ds.group_by = "season"
+            ds.time_coverage_start = "2031-01-01T00:00:00Z"
+            ds.time_coverage_end = "2031-12-31T18:00:00Z"
+        else:
+            ds.createDimension("time", a.times)
+            t = ds.createVariable("time", "f8", ("time",))
+            t.standard_name = "time"
+            t.units = "hours since 2031-07-14 00:00:00"
+            t.calendar = "standard"
+            t[:] = 6.0 * np.arange(a.times)
+        lead = "group" if a.groups else "time"
         unstructured = a.mapping == "unstructured"
         if unstructured:
             ds.createDimension("cell", a.nx * a.ny)
@@ -98,7 +120,7 @@ def main():
             yy = (yy + rng.uniform(-0.2, 0.2, yy.shape) * dy).ravel()
             ii, jj = ii.ravel(), jj.ravel()
             lon[:], lat[:] = xx, yy
-            dims = ("time", "cell")
+            dims = (lead, "cell")
         else:
             geographic = a.mapping in ("latitude_longitude", "none")
             rotated = a.mapping == "rotated_latitude_longitude"
@@ -118,7 +140,7 @@ def main():
                 xv.standard_name, xv.units = "projection_x_coordinate", "m"
                 yv.standard_name, yv.units = "projection_y_coordinate", "m"
             xv.axis, yv.axis = "X", "Y"
-            dims = ("time", yname, xname)
+            dims = (lead, yname, xname)
         if a.mapping not in ("none", "unstructured"):
             crs = ds.createVariable("crs", "i4")
             attrs = dict(MAPPINGS[a.mapping])
@@ -126,7 +148,8 @@ def main():
             crs.setncatts({k: v for k, v in attrs.items() if v is not None})
 
         def field(name, dtype, units, long_name, fill):
-            v = ds.createVariable(name, dtype, dims, fill_value=fill)
+            v = ds.createVariable(name, dtype, dims, fill_value=fill) if fill is not None else \
+                ds.createVariable(name, dtype, dims)
             v.units = units
             v.long_name = long_name
             if a.mapping not in ("none", "unstructured"):
@@ -135,6 +158,14 @@ def main():
                 v.coordinates = "lat lon"
             return v
 
+        if a.groups:
+            mean = field("mu_cape_mean", "f4", "J kg-1", "mean of the CAPE of the most-unstable parcel",
+                         np.float32(9.96921e36))
+            count = field("count", "u4", "1", "number of valid time steps", None)
+            for k in range(4):
+                mean[k] = np.full(xx.shape, 100.0 * (k + 1))
+                count[k] = np.full(xx.shape, 5)
+            return
         cape = field("mu_cape", "f4", "J kg-1", "CAPE of the most-unstable parcel", np.float32(9.96921e36))
         depth = field("latent_layer_depth", "f4", "hPa", "total depth of latently unstable layers",
                       np.float32(9.96921e36))
@@ -143,11 +174,20 @@ def main():
         klass.flag_values = np.array([0, 1, 2], dtype=np.int8)
         klass.flag_meanings = "none pseudo_latent real_latent"
         for k in range(a.times):
-            cape[k] = 1000.0 + 500.0 * np.sin(xx / lx) * np.cos(yy / ly) + 10.0 * k
+            c = 1000.0 + 500.0 * np.sin(xx / lx) * np.cos(yy / ly) + 10.0 * k
+            if a.constant is not None:
+                c = np.full(xx.shape, a.constant)
+            if a.outlier is not None:
+                c = np.array(c, dtype=float)
+                c.flat[0] = a.outlier
+            cape[k] = c
             d = (100.0 + ii + 2.0 * jj).astype(np.float32)
             d = np.ma.masked_where((ii < 2) & (jj < 2), d)
             depth[k] = d
-            klass[k] = ((ii // 3 + jj // 3) % 3).astype(np.int8)
+            kl = ((ii // 3 + jj // 3) % 3).astype(np.int8)
+            if a.class_missing_corner:
+                kl = np.ma.masked_where((ii < 1) & (jj < 1), kl)
+            klass[k] = kl
 
 
 if __name__ == "__main__":
