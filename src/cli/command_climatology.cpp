@@ -79,8 +79,8 @@ void add_climatology_command(CLI::App& app, int& exit_code) {
   cmd->add_option("--set", args->sets, "Override a configuration key: section.key=value (repeatable)")
       ->allow_extra_args(false)
       ->take_all();
-  cmd->add_option("--threads", args->threads, "Threads over columns per process (default: all cores)")
-      ->check(CLI::PositiveNumber);
+  cmd->add_option("--threads", args->threads, "Threads over columns per process (0 or not given: all cores)")
+      ->check(CLI::NonNegativeNumber);
   cmd->add_flag("--quiet", args->quiet, "No run summary");
   cmd->add_flag("--level-fields", args->level_fields,
                 "Model inputs: also count the static stability classes of every layer (slower)");

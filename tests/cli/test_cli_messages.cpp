@@ -25,6 +25,12 @@ TEST(CliMessages, ThreadsZeroMeansAllCores) {
   EXPECT_EQ(r.exit_code, 0) << r.output;
 }
 
+TEST(CliMessages, ClimatologyThreadsZeroMeansAllCores) {
+  const std::string out = test_scratch() + "/stats.nc";
+  CommandResult r = run_command(binary() + " climatology " + quote(sample()) + " -o " + quote(out) + " --threads 0");
+  EXPECT_EQ(r.exit_code, 0) << r.output;
+}
+
 TEST(CliMessages, LatitudeWithALetterGetsAPlainMessage) {
   CommandResult r = run_command(binary() + " column " + quote(sample()) + " --lat 50N --lon 10");
   EXPECT_EQ(r.exit_code, 2);
