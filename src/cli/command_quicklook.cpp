@@ -34,8 +34,8 @@ int run_quicklook(const QuicklookArgs& args) {
   }
   maps::QuicklookSummary s = maps::quicklook_file(args.input, args.output, options);
   if (!args.quiet) {
-    std::printf("quicklook: wrote %s (%d x %d px), %s, valid %s\n", args.output.c_str(), s.width, s.height,
-                args.field.c_str(), s.valid_time.c_str());
+    std::printf("quicklook: wrote %s (%d x %d px), %s, %s%s\n", args.output.c_str(), s.width, s.height,
+                args.field.c_str(), s.group.empty() ? "valid " : "", s.valid_time.c_str());
     std::printf("  map at (%d, %d), %d x %d px, %d px per cell\n", s.map_x, s.map_y, s.map_width, s.map_height,
                 s.pixels_per_cell);
     std::printf("  map edges in the grid's CRS: west %.12g north %.12g, cell %.12g x %.12g\n", s.west, s.north, s.dx, s.dy);
