@@ -17,7 +17,9 @@ packages=(build-essential cmake pkg-config
   libgmt-dev gmt-common gmt-gshhg-low gmt-gshhg-high
   libgtest-dev libgmock-dev libbenchmark-dev valgrind
   libopenmpi-dev openmpi-bin
-  ccache gdal-bin python3 python3-numpy python3-scipy python3-netcdf4 python3-colorspacious)
+  ccache gdal-bin python3 python3-numpy python3-scipy python3-netcdf4 python3-colorspacious
+  python3-dev pybind11-dev python3-venv python3-pip python3-setuptools python3-wheel python3-pytest
+  python3-xarray python3-pandas python3-dask python3-distributed)
 
 missing=()
 for p in "${packages[@]}"; do
@@ -34,3 +36,13 @@ fi
 cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release >/dev/null
 cmake --build "$build" -j "$(nproc)" "${targets[@]}"
 echo "setup: built ${*:-everything} in $build"
+
+# The Python module (built above as build/python/latentlift) installed by pip into a venv that
+# sees Debian's NumPy, xarray, pandas and Dask: nothing is fetched (--no-index --no-deps).
+if [ ${#targets[@]} -eq 0 ] && [ -f "$build/python/latentlift/__init__.py" ]; then
+  env="$build/python-env"
+  [ -x "$env/bin/python" ] || /usr/bin/python3 -m venv --system-site-packages "$env"
+  LATENTLIFT_BUILD_DIR="$build" "$env/bin/python" -m pip install --quiet --no-build-isolation --no-index \
+    --no-deps --disable-pip-version-check "$here/src/python"
+  echo "setup: Python module installed in $env (run $env/bin/python)"
+fi

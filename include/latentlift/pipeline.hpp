@@ -47,6 +47,11 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
 RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& options,
                              const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer);
 
+/// Number of scalar real fields (real_field_names().size()).
+constexpr std::size_t kScalarFieldCount = 16;
+/// The scalar real fields of one column in output units (hPa, K, m, J kg-1), in real_field_names() order.
+void scalar_field_values(const ColumnResult& result, float* values);
+
 /// The input steps (flattened outer indices) covering the given time indices (all when empty).
 std::vector<std::size_t> steps_of_times(const GridDescription& grid, const std::vector<std::size_t>& time_indices);
 

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "latentlift/cli.hpp"
 #include "latentlift/climatology.hpp"
 #include "latentlift/column.hpp"
 #include "latentlift/config.hpp"
@@ -101,7 +102,7 @@ std::string json_text(const std::string& text) {
   return out + "\"";
 }
 
-int run_column(ColumnArgs args) {
+std::string report(ColumnArgs args) {
   if (args.format != "table" && args.format != "csv" && args.format != "json")
     throw UsageError("--format: expected table, csv or json, got " + args.format);
   args.lat = parse_degrees(args.lat_text, "--lat", "north");
@@ -286,11 +287,28 @@ int run_column(ColumnArgs args) {
                   r.latent_class < 0 ? "-" : latent_class_name(r.latent_class));
     out << line;
   }
-  std::fputs(out.str().c_str(), stdout);
-  return 0;
+  return out.str();
 }
 
 }  // namespace
+
+std::string column_report(const std::vector<std::string>& inputs, double lat_deg, double lon_deg,
+                          std::size_t time_index, const std::string& format, const std::string& config_path,
+                          const std::vector<std::string>& overrides) {
+  ColumnArgs args;
+  args.inputs = inputs;
+  for (const std::string& f : inputs) args.input += (args.input.empty() ? "" : " ") + f;
+  char text[64];
+  std::snprintf(text, sizeof text, "%.17g", lat_deg);
+  args.lat_text = text;
+  std::snprintf(text, sizeof text, "%.17g", lon_deg);
+  args.lon_text = text;
+  args.time = time_index;
+  args.format = format;
+  args.config = config_path;
+  args.sets = overrides;
+  return report(args);
+}
 
 void add_column_command(CLI::App& app, int& exit_code) {
   auto args = std::make_shared<ColumnArgs>();
@@ -310,7 +328,8 @@ void add_column_command(CLI::App& app, int& exit_code) {
   cmd->callback([args, &exit_code] {
     args->input.clear();  // the files, as named in messages and the JSON report
     for (const std::string& f : args->inputs) args->input += (args->input.empty() ? "" : " ") + f;
-    exit_code = run_column(*args);
+    std::fputs(report(*args).c_str(), stdout);
+    exit_code = 0;
   });
 }
 

@@ -95,26 +95,7 @@ class FirstFailure {
   std::exception_ptr failure_;
 };
 
-/// Scalar results of one column, in the order of real_field_names(), in output units.
-inline void scalar_values(const ColumnResult& r, float* v) {
-  v[0] = static_cast<float>(r.latent_layer_depth_pa * kHpaPerPa);
-  v[1] = static_cast<float>(r.latent_layer_depth_z_m);
-  v[2] = static_cast<float>(r.latent_layer_bottom_pa * kHpaPerPa);
-  v[3] = static_cast<float>(r.latent_layer_top_pa * kHpaPerPa);
-  v[4] = static_cast<float>(r.tangent_theta_w_k);
-  v[5] = static_cast<float>(r.tangent_pressure_pa * kHpaPerPa);
-  v[6] = static_cast<float>(r.mu_pressure_pa * kHpaPerPa);
-  v[7] = static_cast<float>(r.mu_theta_w_k);
-  v[8] = static_cast<float>(r.mu_cape_j_kg);
-  v[9] = static_cast<float>(r.mu_cin_j_kg);
-  v[10] = static_cast<float>(r.mu_lfc_pressure_pa * kHpaPerPa);
-  v[11] = static_cast<float>(r.mu_el_pressure_pa * kHpaPerPa);
-  v[12] = static_cast<float>(r.mu_lift_to_lfc_pa * kHpaPerPa);
-  v[13] = static_cast<float>(r.mu_lift_to_lfc_z_m);
-  v[14] = static_cast<float>(r.easiest_lift_pa * kHpaPerPa);
-  v[15] = static_cast<float>(r.easiest_lift_pressure_pa * kHpaPerPa);
-}
-constexpr std::size_t kScalarFields = 16;
+constexpr std::size_t kScalarFields = kScalarFieldCount;
 
 void prepare(FieldSet& fields, std::size_t n_columns) {
   fields.n_columns = n_columns;
@@ -269,7 +250,7 @@ class Runner {
       ColumnResult& r = results_[i];
       analyzer.analyze(in, r);
       float v[kScalarFields];
-      scalar_values(r, v);
+      scalar_field_values(r, v);
       for (std::size_t f = 0; f < kScalarFields; ++f) real[f][begin + i] = v[f];
       latent_class[begin + i] = r.latent_class;
       if (levels && r.levels.wet_bulb_temperature_k.size() == static_cast<std::size_t>(nz)) {
@@ -319,6 +300,25 @@ class Runner {
 };
 
 }  // namespace
+
+void scalar_field_values(const ColumnResult& r, float* v) {
+  v[0] = static_cast<float>(r.latent_layer_depth_pa * kHpaPerPa);
+  v[1] = static_cast<float>(r.latent_layer_depth_z_m);
+  v[2] = static_cast<float>(r.latent_layer_bottom_pa * kHpaPerPa);
+  v[3] = static_cast<float>(r.latent_layer_top_pa * kHpaPerPa);
+  v[4] = static_cast<float>(r.tangent_theta_w_k);
+  v[5] = static_cast<float>(r.tangent_pressure_pa * kHpaPerPa);
+  v[6] = static_cast<float>(r.mu_pressure_pa * kHpaPerPa);
+  v[7] = static_cast<float>(r.mu_theta_w_k);
+  v[8] = static_cast<float>(r.mu_cape_j_kg);
+  v[9] = static_cast<float>(r.mu_cin_j_kg);
+  v[10] = static_cast<float>(r.mu_lfc_pressure_pa * kHpaPerPa);
+  v[11] = static_cast<float>(r.mu_el_pressure_pa * kHpaPerPa);
+  v[12] = static_cast<float>(r.mu_lift_to_lfc_pa * kHpaPerPa);
+  v[13] = static_cast<float>(r.mu_lift_to_lfc_z_m);
+  v[14] = static_cast<float>(r.easiest_lift_pa * kHpaPerPa);
+  v[15] = static_cast<float>(r.easiest_lift_pressure_pa * kHpaPerPa);
+}
 
 std::vector<std::size_t> steps_of_times(const GridDescription& grid, const std::vector<std::size_t>& time_indices) {
   std::vector<std::size_t> steps;

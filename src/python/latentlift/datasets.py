@@ -1,0 +1,256 @@
+"""The xarray layer: ``analyze`` and ``column`` on datasets.
+
+Every rule of the command line (quantities by CF standard_name then configured aliases,
+UDUNITS-2 unit conversions, packing and fill values, the vertical coordinate found by its
+units, the checks and their messages) lives once, in the C++ reader. This layer therefore
+hands the reader what it reads everywhere else - a NetCDF file - and never decides
+anything about quantities itself:
+
+* NumPy-backed datasets are written to a temporary file and analysed by the command line's
+  own pipeline and writer, in process; the result is that output file, loaded.
+* Dask-backed datasets are analysed lazily, one Dask block at a time (``xarray.map_blocks``,
+  the pressure dimension in one chunk, blocks over the horizontal and outer dimensions),
+  each block passing through the same pipeline. The result's variables, attributes,
+  coordinates and grid mapping come, before anything is computed, from the writer run on
+  the dataset's metadata (coordinates written, fields left unwritten), so errors in the
+  metadata are raised by ``analyze`` itself, those in the data when it is computed.
+
+Error messages name the dataset's source file (``ds.encoding["source"]``) where the
+command line names its input, or ``<xarray.Dataset>`` for a dataset built in memory.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import tempfile
+from typing import Any, Iterable, Mapping
+
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+from latentlift import _core
+from latentlift.settings import config_path_of, overrides_of
+
+# Encoding kept when a dataset is written for the reader: what makes the file's raw values and
+# attributes those of the original (packing, fill value, time units); storage details dropped.
+_ENCODING_KEPT = ("dtype", "scale_factor", "add_offset", "_FillValue", "missing_value", "units", "calendar")
+# Global attributes that only a complete run knows (QC counts summed over every column).
+_RUN_ATTRIBUTES = ("qc_columns_analysed", "qc_columns_skipped", "qc_humidity_clipped", "qc_dew_point_corrected",
+                   "qc_temperature_rejected")
+
+
+def analyze(
+    ds: xr.Dataset,
+    *,
+    config: str | os.PathLike | None = None,
+    level_fields: bool = False,
+    threads: int = 0,
+    overrides: Iterable[str] | Mapping[str, Any] | None = None,
+    **settings: Any,
+) -> xr.Dataset:
+    """``latentlift analyze`` on a dataset: the same variables, attributes, coordinates and
+    grid mapping as its output file opened with xarray.
+
+    Settings are the config keys of section ``analysis`` as keywords (``buoyancy``,
+    ``top_pressure_hpa``, ``source_layer_hpa``, ``min_excess_k``, ``mu_parcel`` once the
+    configuration has it), ``config`` a TOML file like ``--config``, ``overrides`` any other
+    ``section.key=value`` like ``--set``; ``level_fields`` adds the per-level fields and
+    ``threads`` sets the OpenMP threads of each block (0: all cores).
+
+    NumPy-backed: computed now; the global attributes carry the QC counts like the file.
+    Dask-backed: lazy, one task per block; the QC counts (sums over every column) are not
+    known before computing and are left out of the attributes.
+    """
+    if not isinstance(ds, xr.Dataset):
+        raise TypeError("analyze: expected an xarray.Dataset")
+    job = _Job(ds, config, overrides_of(settings, overrides), bool(level_fields), int(threads))
+    if not _is_lazy(ds):
+        return job.analyze_now(ds)
+    return job.analyze_lazily(ds)
+
+
+def column(
+    ds: xr.Dataset,
+    lat: float,
+    lon: float,
+    time: int = 0,
+    *,
+    config: str | os.PathLike | None = None,
+    overrides: Iterable[str] | Mapping[str, Any] | None = None,
+    **settings: Any,
+) -> pd.DataFrame:
+    """``latentlift column --lat LAT --lon LON --time INDEX``: the level table of the grid
+    column nearest to the point (bottom up) as a DataFrame, with the column's position and
+    summary values (``mu_cape``, ``latent_class`` ...) in ``.attrs``."""
+    name = _display_name(ds)
+    with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
+        path = os.path.join(tmp, "input.nc")
+        _write_for_reader(ds, path)
+        text = _translated(
+            {path: name}, _core.column_report, [path], float(lat), float(lon), int(time), "json",
+            config_path_of(config), overrides_of(settings, overrides))
+    report = json.loads(text)
+    report["file"] = name
+    table = pd.DataFrame(report.pop("levels"))
+    summary = report.pop("summary")
+    table.attrs.update(report)
+    table.attrs.update(summary)
+    return table
+
+
+class _Job:
+    """One call of ``analyze``: the settings and the dataset's display name."""
+
+    def __init__(self, ds, config, overrides, level_fields, threads):
+        self.name = _display_name(ds)
+        self.config = config_path_of(config)
+        self.overrides = overrides
+        self.level_fields = level_fields
+        self.threads = threads
+        self.history = "latentlift.analyze (Python) on " + self.name
+
+    def run(self, ds: xr.Dataset, tmp: str, deflate_level: int = 0) -> tuple[str, dict]:
+        """The command line's pipeline on ds (written to tmp); the output file and run summary."""
+        source = os.path.join(tmp, "input.nc")
+        target = os.path.join(tmp, "output.nc")
+        _write_for_reader(ds, source)
+        summary = _translated({source: self.name}, _core.analyze_files, [source], target, self.config,
+                              self.overrides, self.level_fields, self.threads, self.history, deflate_level)
+        return target, summary
+
+    def analyze_now(self, ds: xr.Dataset) -> xr.Dataset:
+        with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
+            target, _ = self.run(ds, tmp)
+            with xr.open_dataset(target) as opened:
+                result = opened.load()
+        return self._finish(result)
+
+    def analyze_lazily(self, ds: xr.Dataset) -> xr.Dataset:
+        with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
+            source = os.path.join(tmp, "metadata.nc")
+            target = os.path.join(tmp, "template.nc")
+            _write_metadata(ds, source)
+            _translated({source: self.name}, _core.write_output_template, [source], target, self.config,
+                        self.overrides, True, self.history)
+            with xr.open_dataset(target) as opened:
+                template = opened.load()
+        # The pressure dimension: the one the per-level fields have beside the maps' dimensions.
+        map_dims = template["latent_layer_depth"].dims
+        vertical = [d for d in template["wet_bulb_temperature"].dims if d not in map_dims][0]
+        if not self.level_fields:
+            template = template.drop_vars([v for v in template.data_vars if vertical in template[v].dims])
+            template = template.drop_dims(vertical, errors="ignore")
+        fields = [v for v in template.data_vars if template[v].dims]
+
+        ds = ds.unify_chunks().chunk({vertical: -1})
+        chunks = dict(ds.chunks)
+        blocks = xr.Dataset(coords={d: ds[d] for d in template.dims if d in ds.indexes})
+        for name in fields:
+            var = template[name]
+            shape = tuple(template.dims[d] for d in var.dims)
+            block_chunks = tuple(chunks.get(d, (template.dims[d],)) for d in var.dims)
+            import dask.array
+
+            data = dask.array.empty(shape, chunks=block_chunks, dtype=var.dtype)
+            blocks[name] = xr.DataArray(data, dims=var.dims, attrs=var.attrs)
+            blocks[name].encoding = _clean_encoding(var.encoding)
+        result = xr.map_blocks(_analyze_block, ds, kwargs={"job": self, "fields": fields}, template=blocks)
+        extra = template.drop_vars(fields)
+        # Coordinates as the writer wrote them (map_blocks rebuilds indexes in pandas' dtypes).
+        result = result.assign_coords({c: extra[c] for c in extra.coords})
+        for name in extra.data_vars:
+            result[name] = extra[name]
+        for name in fields:
+            result[name].attrs = template[name].attrs
+            result[name].encoding = _clean_encoding(template[name].encoding)
+        result.attrs = {k: v for k, v in template.attrs.items() if k not in _RUN_ATTRIBUTES}
+        return self._finish(result, keep_run_attributes=False)
+
+    def _finish(self, result: xr.Dataset, keep_run_attributes: bool = True) -> xr.Dataset:
+        if "input_files" in result.attrs:
+            result.attrs["input_files"] = self.name
+        for var in result.variables.values():
+            var.encoding.pop("source", None)
+        result.encoding = {}
+        return result
+
+
+def _analyze_block(block: xr.Dataset, job: _Job, fields: list[str]) -> xr.Dataset:
+    """One Dask block through the command line's pipeline (runs on the workers)."""
+    with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
+        target, _ = job.run(block, tmp)
+        with xr.open_dataset(target) as opened:
+            result = opened[fields].load()
+    result = result.reset_coords(drop=True)
+    return result.assign_coords({d: block[d] for d in result.dims if d in block.indexes})
+
+
+def _is_lazy(ds: xr.Dataset) -> bool:
+    return any(var.chunks is not None for var in ds.data_vars.values())
+
+
+def _display_name(ds: xr.Dataset) -> str:
+    source = ds.encoding.get("source")
+    return os.fspath(source) if source else "<xarray.Dataset>"
+
+
+def _clean_encoding(encoding: Mapping[str, Any]) -> dict:
+    return {k: v for k, v in encoding.items() if k in _ENCODING_KEPT}
+
+
+def _for_reader(ds: xr.Dataset) -> xr.Dataset:
+    """ds with the encoding that reproduces its file's raw values, storage details dropped."""
+    out = ds.copy(deep=False)
+    for var in out.variables.values():
+        var.encoding = _clean_encoding(var.encoding)
+    out.encoding = {}
+    return out
+
+
+def _write_for_reader(ds: xr.Dataset, path: str) -> None:
+    _for_reader(ds).to_netcdf(path, engine="netcdf4", format="NETCDF4")
+
+
+def _write_metadata(ds: xr.Dataset, path: str) -> None:
+    """A NetCDF file with ds's dimensions, variables and attributes, and the values of
+    everything but its Dask-backed data variables (left unwritten): what the reader and
+    writer need to decide everything but the field values."""
+    import netCDF4
+
+    prepared = _for_reader(ds)
+    variables, attributes = xr.conventions.encode_dataset_coordinates(prepared)
+    variables, attributes = xr.conventions.cf_encoder(variables, attributes)
+    lazy = {name for name, var in ds.data_vars.items() if var.chunks is not None}
+    with netCDF4.Dataset(path, "w", format="NETCDF4") as nc:
+        for dim, length in prepared.dims.items():
+            nc.createDimension(dim, length)
+        for name, var in variables.items():
+            attrs = dict(var.attrs)
+            fill = attrs.pop("_FillValue", None)
+            dtype = var.dtype
+            if dtype.kind in "OU":
+                dtype = str
+            out = nc.createVariable(name, dtype, var.dims, fill_value=fill)
+            out.setncatts({k: _nc_attribute(v) for k, v in attrs.items()})
+            if name in lazy:
+                continue
+            out.set_auto_maskandscale(False)
+            out[...] = np.asarray(var.values)
+        nc.setncatts({k: _nc_attribute(v) for k, v in attributes.items()})
+
+
+def _nc_attribute(value: Any) -> Any:
+    return value if not isinstance(value, bool) else int(value)
+
+
+def _translated(names: Mapping[str, str], function, *args):
+    """Call into C++; messages name the dataset rather than the temporary file written for it."""
+    try:
+        return function(*args)
+    except _core.Error as error:
+        message = str(error)
+        for temporary, shown in names.items():
+            message = message.replace(temporary, shown)
+        raise type(error)(message) from None
