@@ -65,3 +65,14 @@ def test_numpy_result_records_the_quality_control_counts_of_the_run(cli_output):
         result = latentlift.analyze(ds)
     # 2 time steps x 37 x 72 columns (ncdump -h of the sample grid).
     assert result.attrs["qc_columns_analysed"] + result.attrs["qc_columns_skipped"] == 2 * 37 * 72
+
+
+def test_lazy_result_written_with_to_netcdf_reads_back_as_the_command_line_output(cli_output, tmp_path):
+    # The README's Dask example: chunked by time and latitude, written block by block.
+    path = SAMPLE_GRIDS["latlon"]
+    with xr.open_dataset(path, chunks={"time": 1, "lat": 19}) as ds:
+        latentlift.analyze(ds).to_netcdf(tmp_path / "python.nc")
+    with xr.open_dataset(tmp_path / "python.nc", mask_and_scale=False) as written:
+        assert written["latent_class"].dtype == np.int8  # a byte flag field, like the file
+    with xr.open_dataset(tmp_path / "python.nc") as written:
+        assert_same_output(written, cli_output(path), qc=False)

@@ -29,6 +29,7 @@ from typing import Any, Iterable, Mapping
 import numpy as np
 import pandas as pd
 import xarray as xr
+from xarray.backends.netCDF4_ import NETCDF4_PYTHON_LOCK
 
 from latentlift import _core
 from latentlift.settings import config_path_of, overrides_of
@@ -36,6 +37,10 @@ from latentlift.settings import config_path_of, overrides_of
 # Encoding kept when a dataset is written for the reader: what makes the file's raw values and
 # attributes those of the original (packing, fill value, time units); storage details dropped.
 _ENCODING_KEPT = ("dtype", "scale_factor", "add_offset", "_FillValue", "missing_value", "units", "calendar")
+# netCDF-C is not thread-safe. xarray's netCDF4 backend serialises its calls on this lock
+# (Dask threads reading inputs, writing results); the C++ library's own calls run while it is
+# held too (threads inside one C++ call use the library's own netCDF lock).
+_NETCDF_LOCK = NETCDF4_PYTHON_LOCK
 # Global attributes that only a complete run knows (QC counts summed over every column).
 _RUN_ATTRIBUTES = ("qc_columns_analysed", "qc_columns_skipped", "qc_humidity_clipped", "qc_dew_point_corrected",
                    "qc_temperature_rejected")
@@ -123,8 +128,7 @@ class _Job:
     def analyze_now(self, ds: xr.Dataset) -> xr.Dataset:
         with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
             target, _ = self.run(ds, tmp)
-            with xr.open_dataset(target) as opened:
-                result = opened.load()
+            result = _load(target)
         return self._finish(result)
 
     def analyze_lazily(self, ds: xr.Dataset) -> xr.Dataset:
@@ -134,8 +138,7 @@ class _Job:
             _write_metadata(ds, source)
             _translated({source: self.name}, _core.write_output_template, [source], target, self.config,
                         self.overrides, True, self.history)
-            with xr.open_dataset(target) as opened:
-                template = opened.load()
+            template = _load(target)
         # The pressure dimension: the one the per-level fields have beside the maps' dimensions.
         map_dims = template["latent_layer_depth"].dims
         vertical = [d for d in template["wet_bulb_temperature"].dims if d not in map_dims][0]
@@ -181,8 +184,7 @@ def _analyze_block(block: xr.Dataset, job: _Job, fields: list[str]) -> xr.Datase
     """One Dask block through the command line's pipeline (runs on the workers)."""
     with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
         target, _ = job.run(block, tmp)
-        with xr.open_dataset(target) as opened:
-            result = opened[fields].load()
+        result = _load(target, fields)
     result = result.reset_coords(drop=True)
     return result.assign_coords({d: block[d] for d in result.dims if d in block.indexes})
 
@@ -213,6 +215,12 @@ def _write_for_reader(ds: xr.Dataset, path: str) -> None:
     _for_reader(ds).to_netcdf(path, engine="netcdf4", format="NETCDF4")
 
 
+def _load(path: str, variables: list[str] | None = None) -> xr.Dataset:
+    """An output file, loaded into memory and closed."""
+    with xr.open_dataset(path) as opened:
+        return (opened if variables is None else opened[variables]).load()
+
+
 def _write_metadata(ds: xr.Dataset, path: str) -> None:
     """A NetCDF file with ds's dimensions, variables and attributes, and the values of
     everything but its Dask-backed data variables (left unwritten): what the reader and
@@ -223,7 +231,7 @@ def _write_metadata(ds: xr.Dataset, path: str) -> None:
     variables, attributes = xr.conventions.encode_dataset_coordinates(prepared)
     variables, attributes = xr.conventions.cf_encoder(variables, attributes)
     lazy = {name for name, var in ds.data_vars.items() if var.chunks is not None}
-    with netCDF4.Dataset(path, "w", format="NETCDF4") as nc:
+    with _NETCDF_LOCK, netCDF4.Dataset(path, "w", format="NETCDF4") as nc:
         for dim, length in prepared.dims.items():
             nc.createDimension(dim, length)
         for name, var in variables.items():
@@ -246,9 +254,11 @@ def _nc_attribute(value: Any) -> Any:
 
 
 def _translated(names: Mapping[str, str], function, *args):
-    """Call into C++; messages name the dataset rather than the temporary file written for it."""
+    """Call into C++ (which reads and writes NetCDF files); messages name the dataset rather
+    than the temporary file written for it."""
     try:
-        return function(*args)
+        with _NETCDF_LOCK:
+            return function(*args)
     except _core.Error as error:
         message = str(error)
         for temporary, shown in names.items():
