@@ -76,3 +76,10 @@ def test_lazy_result_written_with_to_netcdf_reads_back_as_the_command_line_outpu
         assert written["latent_class"].dtype == np.int8  # a byte flag field, like the file
     with xr.open_dataset(tmp_path / "python.nc") as written:
         assert_same_output(written, cli_output(path), qc=False)
+
+
+def test_mu_parcel_keyword_acts_like_the_set_option(cli_output):
+    path = SAMPLE_GRIDS["lambert"]
+    with xr.open_dataset(path) as ds:
+        result = latentlift.analyze(ds, mu_parcel="max_theta_w")
+    assert_same_output(result, cli_output(path, "--set", "analysis.mu_parcel=max_theta_w"))

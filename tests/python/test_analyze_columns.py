@@ -140,3 +140,13 @@ def test_the_gil_is_released_while_columns_are_analysed():
     gaps = np.diff(np.concatenate([[call_start], inside, [call_start + call]]))
     assert call > 0.3
     assert gaps.max() < 0.5 * call, (gaps.max(), call)
+
+
+def test_mu_parcel_rule_is_a_setting():
+    by_cape = run(mu_parcel="max_cape")
+    by_theta_w = run(mu_parcel="max_theta_w")
+    # The most-unstable parcel by its CAPE has at least the CAPE of the one by its theta_w (METHODS).
+    both = ~np.isnan(by_cape["mu_cape"]) & ~np.isnan(by_theta_w["mu_cape"])
+    assert (by_cape["mu_cape"][both] >= by_theta_w["mu_cape"][both] - 1e-3).all()
+    with pytest.raises(latentlift.UsageError, match="mu_parcel"):
+        run(mu_parcel="warmest")

@@ -35,8 +35,8 @@ def analyze_columns(
     (Pa: one per level, shape ``(levels,)``, or one per level and column), optional
     ``height_m`` (geopotential height, m) and ``surface_pressure_pa`` (Pa, one per column).
     Settings are the config keys of section ``analysis`` as keywords (``buoyancy``,
-    ``top_pressure_hpa``, ``source_layer_hpa``, ``min_excess_k``, ``mu_parcel`` once the
-    configuration has it) and/or a config file.
+    ``top_pressure_hpa``, ``source_layer_hpa``, ``min_excess_k``, ``mu_parcel``) and/or a
+    config file.
 
     Returns a dict of arrays named like the output fields of ``latentlift analyze`` in its
     units (hPa, K, m, J kg-1; float32, NaN missing; ``latent_class`` int8, -1 missing), shape

@@ -59,8 +59,8 @@ def analyze(
     grid mapping as its output file opened with xarray.
 
     Settings are the config keys of section ``analysis`` as keywords (``buoyancy``,
-    ``top_pressure_hpa``, ``source_layer_hpa``, ``min_excess_k``, ``mu_parcel`` once the
-    configuration has it), ``config`` a TOML file like ``--config``, ``overrides`` any other
+    ``top_pressure_hpa``, ``source_layer_hpa``, ``min_excess_k``, ``mu_parcel``), ``config``
+    a TOML file like ``--config``, ``overrides`` any other
     ``section.key=value`` like ``--set``; ``level_fields`` adds the per-level fields and
     ``threads`` sets the OpenMP threads of each block (0: all cores).
 
@@ -231,6 +231,8 @@ def _write_metadata(ds: xr.Dataset, path: str) -> None:
     variables, attributes = xr.conventions.encode_dataset_coordinates(prepared)
     variables, attributes = xr.conventions.cf_encoder(variables, attributes)
     lazy = {name for name, var in ds.data_vars.items() if var.chunks is not None}
+    # Values computed before taking the lock: Dask reads of the inputs take it themselves.
+    values = {name: np.asarray(var.values) for name, var in variables.items() if name not in lazy}
     with _NETCDF_LOCK, netCDF4.Dataset(path, "w", format="NETCDF4") as nc:
         for dim, length in prepared.dims.items():
             nc.createDimension(dim, length)
@@ -242,10 +244,9 @@ def _write_metadata(ds: xr.Dataset, path: str) -> None:
                 dtype = str
             out = nc.createVariable(name, dtype, var.dims, fill_value=fill)
             out.setncatts({k: _nc_attribute(v) for k, v in attrs.items()})
-            if name in lazy:
-                continue
-            out.set_auto_maskandscale(False)
-            out[...] = np.asarray(var.values)
+            if name in values:
+                out.set_auto_maskandscale(False)
+                out[...] = values[name]
         nc.setncatts({k: _nc_attribute(v) for k, v in attributes.items()})
 
 
