@@ -186,7 +186,7 @@ py::dict analyze_files(const std::vector<std::string>& inputs, const std::string
     if (deflate_level >= 0) options.config.deflate_level = deflate_level;
     options.level_fields = level_fields;
     options.threads = threads;
-    InputDataset input(inputs, options.config.aliases);
+    InputDataset input(inputs, options.config.aliases, options.config.conventions);
     OutputOptions output_options;
     output_options.overwrite = true;
     output_options.history = history;
@@ -208,7 +208,7 @@ void write_output_template(const std::vector<std::string>& inputs, const std::st
                            bool level_fields, const std::string& history) {
   py::gil_scoped_release release;
   const RunConfig config = load_config(config_path, overrides);
-  InputDataset input(inputs, config.aliases);
+  InputDataset input(inputs, config.aliases, config.conventions);
   OutputOptions options;
   options.overwrite = true;
   options.level_fields = level_fields;

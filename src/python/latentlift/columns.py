@@ -31,7 +31,7 @@ def analyze_columns(
 
     Arrays have the levels as their last axis, any float dtype, NaN for missing, SI units:
     ``temp_k`` (K), ``humidity`` (kg/kg for specific humidity and mixing ratio, a fraction 0-1
-    for relative humidity, K for dew point; ``humidity_kind`` says which), ``pressure_pa``
+    for relative humidity (over water), K for dew point; ``humidity_kind`` says which), ``pressure_pa``
     (Pa: one per level, shape ``(levels,)``, or one per level and column), optional
     ``height_m`` (geopotential height, m) and ``surface_pressure_pa`` (Pa, one per column).
     Settings are the config keys of section ``analysis`` as keywords (``buoyancy``,
