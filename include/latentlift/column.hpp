@@ -32,6 +32,7 @@ struct QcCounts {
   long humidity_clipped = 0;          // RH > 100 %, q or r above saturation, negative humidity
   long dew_point_corrected = 0;       // dew point above temperature set to temperature
   long temperature_rejected = 0;      // temperature outside 150-350 K (level made unusable)
+  long surface_pressure_rejected = 0; // columns skipped: surface pressure missing or outside 300-1100 hPa (set by io)
   void add(const QcCounts& other);
 };
 

@@ -27,6 +27,9 @@ struct InputConventions {
   bool require_surface_pressure = false;  // no surface pressure nor surface height: InputError
   thermo::SaturationReference relative_humidity_over = thermo::SaturationReference::water;
   thermo::MixedPhase mixed_phase;         // thresholds of relative_humidity_over = mixed
+  /// Quantities whose aliases the user gave (config or --set): a name listed there settles
+  /// two variables with the same standard_name (otherwise an InputError listing both).
+  std::vector<std::string> chosen_quantities;
 };
 
 /// Where the surface pressure of the columns comes from (global attribute surface_pressure_source).
@@ -60,7 +63,8 @@ struct QuantitySource {
 class InputDataset {
  public:
   /// Open the files: several time steps of one grid (concatenated along time) and/or
-  /// fields split across files. Throws InputError naming file, variable and expectation.
+  /// fields split across files. Throws InputError naming file, variable and expectation,
+  /// also for an implausible quantity (src/io/plausibility.hpp).
   InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases,
                const InputConventions& conventions = {});
   ~InputDataset();

@@ -4,12 +4,26 @@
 
 #include <cstdio>
 #include <exception>
+#include <new>
 #include <string>
 
 #include "cli/commands.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::cli {
+
+namespace {
+
+/// A message as one line of reasonable length (a safety net: values are cut short where they are quoted).
+std::string one_line(const std::string& message) {
+  constexpr std::size_t kMaxChars = 1000;
+  std::string line;
+  for (char c : message) line += (c == '\n' || c == '\r') ? ' ' : c;
+  if (line.size() > kMaxChars) line = line.substr(0, kMaxChars) + "...";
+  return line;
+}
+
+}  // namespace
 
 int run(int argc, char** argv) {
   CLI::App app{"latentlift: Normand's latent instability for every column of NWP pressure-level output",
@@ -38,13 +52,16 @@ int run(int argc, char** argv) {
     std::fprintf(stderr, "latentlift: %s\n", e.what());
     return 2;
   } catch (const InputError& e) {
-    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    std::fprintf(stderr, "latentlift: %s\n", one_line(e.what()).c_str());
     return 2;
   } catch (const UsageError& e) {
-    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    std::fprintf(stderr, "latentlift: %s\n", one_line(e.what()).c_str());
     return 2;
+  } catch (const std::bad_alloc&) {
+    std::fprintf(stderr, "latentlift: out of memory (try a smaller run.block_columns)\n");
+    return 1;
   } catch (const std::exception& e) {
-    std::fprintf(stderr, "latentlift: %s\n", e.what());
+    std::fprintf(stderr, "latentlift: %s\n", one_line(e.what()).c_str());
     return 1;
   }
   return exit_code;

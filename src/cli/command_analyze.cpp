@@ -96,11 +96,12 @@ int run_analyze(const AnalyzeArgs& args) {
   if (!args.quiet) {
     const QcCounts& qc = summary.qc;
     std::printf("analyze: wrote %s\n", args.output.c_str());
-    std::printf("  steps %zu, columns %zu: analysed %ld, skipped %ld (fewer than 3 usable levels)\n", summary.steps,
+    std::printf("  steps %zu, columns %zu: analysed %ld, skipped %ld (fewer than 3 usable levels, or no usable surface pressure)\n", summary.steps,
                 summary.columns, qc.columns_analysed, qc.columns_skipped);
     print_input_summary(input);
-    std::printf("  quality control: humidity clipped %ld, dew point corrected %ld, temperatures rejected %ld\n",
-                qc.humidity_clipped, qc.dew_point_corrected, qc.temperature_rejected);
+    std::printf("  quality control: humidity clipped %ld, dew point corrected %ld, temperatures rejected %ld, "
+                "surface pressures rejected %ld\n",
+                qc.humidity_clipped, qc.dew_point_corrected, qc.temperature_rejected, qc.surface_pressure_rejected);
     std::printf("  time %.2f s on %d threads (waiting for input %.2f s, for output %.2f s), %.0f columns/s\n",
                 summary.seconds, parallel::max_threads(), summary.input_wait_seconds, summary.output_wait_seconds,
                 summary.seconds > 0 ? summary.columns / summary.seconds : 0.0);

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "io/plausibility.hpp"
 #include "latentlift/cli.hpp"
 #include "latentlift/climatology.hpp"
 #include "latentlift/column.hpp"
@@ -175,7 +176,19 @@ std::string report(ColumnArgs args) {
   warn_without_surface_pressure(input, "column");
   ColumnAnalyzer analyzer(settings);
   ColumnResult r;
+  const std::string where = "the column at " + number(lats[best], 4) + ", " + number(lons[best], 4) + " (time index " +
+                            std::to_string(args.time) + ")";
+  if (!block.surface_pressure_pa.empty() && !io::detail::plausible_surface_pressure(in.surface_pressure_pa))
+    throw InputError(args.input, "", where + ": a surface pressure from 300 to 1100 hPa (found " +
+                                         (std::isnan(in.surface_pressure_pa) ? std::string("a missing value")
+                                                                             : number(in.surface_pressure_pa / 100.0, 1) + " hPa") +
+                                         ")");
   analyzer.analyze(in, r);
+  if (r.qc.columns_analysed == 0)  // nothing analysed is never a result
+    throw InputError(args.input, "", where + ": at least 3 usable levels (levels with temperature, humidity and a "
+                                             "pressure above the ground; " +
+                                             std::to_string(r.qc.temperature_rejected) +
+                                             " temperatures outside 150-350 K)");
 
   // Levels from the bottom up (highest pressure first).
   std::vector<int> order(block.n_levels);

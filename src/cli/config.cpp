@@ -132,6 +132,8 @@ void apply(RunConfig& config, const std::string& section, const std::string& key
       throw UsageError("config key " + full + ": expected a list of variable names");
     }
     config.aliases[key] = names;
+    if (std::find(config.conventions.chosen_quantities.begin(), config.conventions.chosen_quantities.end(), key) == config.conventions.chosen_quantities.end())
+      config.conventions.chosen_quantities.push_back(key);
   } else if (section == "run") {
     if (key == "block_columns")
       config.block_columns = static_cast<std::size_t>(integer(node, full, 1, 100000000));

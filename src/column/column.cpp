@@ -197,6 +197,7 @@ void QcCounts::add(const QcCounts& o) {
   humidity_clipped += o.humidity_clipped;
   dew_point_corrected += o.dew_point_corrected;
   temperature_rejected += o.temperature_rejected;
+  surface_pressure_rejected += o.surface_pressure_rejected;
 }
 
 void ColumnResult::set_missing(int n_levels, bool with_levels) {

@@ -33,6 +33,7 @@ struct VarRef {
   std::vector<double> fills;     // raw values meaning missing
   double valid_min = -HUGE_VAL, valid_max = HUGE_VAL;  // raw
   double scale = 1.0, offset = 0.0;  // SI = raw * scale + offset (unpacking, units and 1/g folded in)
+  double si_per_unit = 1.0, si_offset = 0.0;  // SI = unpacked value in `units` * si_per_unit + si_offset
   bool global_time = false;      // indexed by the time index over all files (not the segment's own)
   std::shared_ptr<ChunkReader> direct;  // set when its chunks are read raw and inflated here (chunk_reader.hpp)
   std::vector<std::size_t> levels;  // per grid level: index along the variable's own pressure dimension

@@ -1,11 +1,18 @@
 #include "io/netcdf_util.hpp"
 
+#include <hdf5.h>
 #include <netcdf.h>
+#include <sys/statvfs.h>
 
+#include <cctype>
+#include <cerrno>
+#include <cstring>
 #include <ctime>
 #include <filesystem>
+#include <fstream>
 #include <utility>
 
+#include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::io::detail {
@@ -19,13 +26,32 @@ std::string utc_timestamp() {
   return text;
 }
 
+void quiet_library_errors() {
+  // HDF5 (under netCDF-4) prints its error stack to stderr by default, per thread in its
+  // thread-safe build; our errors are one line, so turn it off on every thread that calls netCDF.
+  thread_local const bool quiet = H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr) >= 0;
+  (void)quiet;
+}
+
 std::mutex& netcdf_mutex() {
   static std::mutex mutex;
+  quiet_library_errors();
   return mutex;
 }
 
+std::string system_reason(int status, const std::string& file) {
+  // errno belongs to the failing call only when the storage says so: a full or failing disk.
+  const int error = errno;
+  const std::filesystem::path parent = std::filesystem::absolute(file).parent_path();
+  struct statvfs fs {};
+  const bool full = statvfs(parent.c_str(), &fs) == 0 && fs.f_bavail == 0;
+  if (full || error == ENOSPC) return std::strerror(ENOSPC);
+  if (error == EDQUOT || error == EFBIG || error == EIO || error == EROFS) return std::strerror(error);
+  return nc_strerror(status);
+}
+
 void check(int status, const std::string& file, const std::string& what) {
-  if (status != NC_NOERR) throw Error(file + ": " + what + ": " + nc_strerror(status));
+  if (status != NC_NOERR) throw Error(file + ": " + what + ": " + system_reason(status, file));
 }
 
 namespace {
@@ -58,12 +84,45 @@ void check_complete(int ncid, const std::string& path) {
 
 }  // namespace
 
+namespace {
+
+/// Why a file could not be opened as NetCDF, from the status and its first bytes.
+std::string open_failure(int status, const std::string& path) {
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec)) return "expected a NetCDF file, found a directory";
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return std::string("expected a readable NetCDF file (") + std::strerror(errno == 0 ? EACCES : errno) + ")";
+  char head[8] = {0};
+  in.read(head, sizeof head);
+  const std::streamsize n = in.gcount();
+  const std::uintmax_t size = std::filesystem::file_size(path, ec);
+  if (n == 0) return "expected a NetCDF file, found an empty file";
+  const bool classic = n >= 4 && head[0] == 'C' && head[1] == 'D' && head[2] == 'F' && (head[3] == 1 || head[3] == 2 || head[3] == 5);
+  const bool hdf5 = n >= 8 && std::memcmp(head, "\x89HDF\r\n\x1a\n", 8) == 0;
+  if (!classic && !hdf5) {
+    std::string shown;
+    for (std::streamsize i = 0; i < std::min<std::streamsize>(n, 4); ++i)
+      shown += std::isprint(static_cast<unsigned char>(head[i])) ? std::string(1, head[i]) : "?";
+    return "expected a NetCDF file (classic 'CDF' or NetCDF-4/HDF5) or a GRIB file, found one starting with '" + shown + "'";
+  }
+  const std::string kind = classic ? "classic NetCDF" : "NetCDF-4/HDF5";
+  // Positive statuses are system errno values from netCDF's own file handling; inside a
+  // file that starts like NetCDF they mean damage, not the system (e.g. a wild length read).
+  const std::string reason = status > 0 ? "unreadable structure" : nc_strerror(status);
+  return "a readable NetCDF file: this " + kind + " file of " + std::to_string(size) + " bytes is damaged or truncated (" +
+         reason + ")";
+}
+
+}  // namespace
+
 NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
   NcFile file;
+  quiet_library_errors();
+  errno = 0;
   int status = nc_open(path.c_str(), NC_NOWRITE, &file.id_);
   if (status != NC_NOERR) {
     file.id_ = -1;
-    throw InputError(path, "", std::string("expected a readable NetCDF or GRIB file (") + nc_strerror(status) + ")");
+    throw InputError(shown_as.empty() ? path : shown_as, "", open_failure(status, path));
   }
   file.path_ = shown_as.empty() ? path : shown_as;
   check_complete(file.id_, path);
@@ -72,6 +131,7 @@ NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
 
 NcFile NcFile::create_netcdf4(const std::string& path) {
   NcFile file;
+  quiet_library_errors();
   int status = nc_create(path.c_str(), NC_CLOBBER | NC_NETCDF4, &file.id_);
   if (status != NC_NOERR) {
     file.id_ = -1;
@@ -183,9 +243,20 @@ std::vector<double> number_attribute(int ncid, int varid, const char* name) {
 std::vector<double> read_all_doubles(int ncid, int varid, const std::string& file) {
   VarShape shape = var_shape(ncid, varid);
   size_t n = 1;
-  for (size_t length : shape.lengths) n *= length;
+  double bytes = 8.0;
+  for (size_t length : shape.lengths) {
+    n *= length;
+    bytes *= static_cast<double>(length);
+  }
+  const std::string name = var_name(ncid, varid);
+  check_memory(file, name, "reading it", bytes);
   std::vector<double> values(n);
-  if (n > 0) check(nc_get_var_double(ncid, varid, values.data()), file, "reading " + var_name(ncid, varid));
+  if (n == 0) return values;
+  const int status = nc_get_var_double(ncid, varid, values.data());
+  if (status == NC_ECHAR)
+    throw InputError(file, name, "numbers (found " + std::string(var_type(ncid, varid) == NC_STRING ? "strings" : "characters") + ")");
+  if (status != NC_NOERR)
+    throw InputError(file, name, std::string("readable values (") + nc_strerror(status) + "; is the file damaged or truncated?)");
   return values;
 }
 

@@ -9,8 +9,16 @@
 
 namespace latentlift::io::detail {
 
-/// The one lock around every netCDF-C call in the process.
+/// The one lock around every netCDF-C call in the process (also silences HDF5's error
+/// printing on the calling thread).
 std::mutex& netcdf_mutex();
+
+/// Turn off HDF5's automatic error printing on this thread (idempotent, cheap).
+void quiet_library_errors();
+
+/// The reason of a failed write or close of `file`: "No space left on device" when the disk
+/// is full (or errno says so), else the netCDF message.
+std::string system_reason(int status, const std::string& file);
 
 /// Throw latentlift::Error "<file>: <what>: <nc_strerror>" when status is not NC_NOERR.
 void check(int status, const std::string& file, const std::string& what);

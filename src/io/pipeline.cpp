@@ -14,6 +14,7 @@
 #include <memory>
 #include <thread>
 
+#include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/parallel.hpp"
 
@@ -96,6 +97,36 @@ class FirstFailure {
 };
 
 constexpr std::size_t kScalarFields = kScalarFieldCount;
+
+/// Refuse a grid whose output maps alone would not fit in memory (a damaged or absurd dimension).
+void check_grid_memory(const InputDataset& input, const PipelineOptions& options) {
+  const GridDescription& grid = input.grid();
+  const double columns = static_cast<double>(grid.n_columns);
+  const double levels = static_cast<double>(grid.vertical.length);
+  const double block = std::min(columns, static_cast<double>(options.config.block_columns));
+  // Two field sets (double-buffered maps: 16 float fields and 1 byte field per column) and two
+  // blocks of input (3 double arrays per level) with their results.
+  const double bytes = 2.0 * columns * (kScalarFields * 4.0 + 1.0) + 2.0 * block * levels * 3.0 * 8.0 +
+                       (options.level_fields ? 2.0 * block * levels * 19.0 + columns * levels : 0.0);
+  io::detail::check_memory(input.paths().front(), "", "analysing " + std::to_string(grid.n_columns) + " columns of " +
+                                                          std::to_string(grid.vertical.length) + " levels", bytes);
+}
+
+/// A run that analysed no column at all is an input error, with the count of each reason.
+void require_analysed_columns(const InputDataset& input, const RunSummary& summary) {
+  const QcCounts& qc = summary.qc;
+  if (qc.columns_analysed > 0 || summary.columns == 0) return;
+  std::string files;
+  for (const std::string& path : input.paths()) files += (files.empty() ? "" : ", ") + path;
+  std::string reasons = std::to_string(qc.columns_skipped - qc.surface_pressure_rejected) +
+                        " with fewer than 3 usable levels";
+  if (qc.surface_pressure_rejected > 0)
+    reasons += ", " + std::to_string(qc.surface_pressure_rejected) + " with a surface pressure missing or outside 300-1100 hPa";
+  reasons += "; levels: " + std::to_string(qc.temperature_rejected) + " temperatures outside 150-350 K, " +
+             std::to_string(qc.humidity_clipped) + " humidities clipped";
+  throw InputError(files, "", "at least one column that can be analysed; none of " + std::to_string(summary.columns) +
+                                  " columns was (" + reasons + ")");
+}
 
 void prepare(FieldSet& fields, std::size_t n_columns) {
   fields.n_columns = n_columns;
@@ -248,7 +279,14 @@ class Runner {
       in.height_m = &block.height_m[i * nz];
       in.surface_pressure_pa = with_ps ? block.surface_pressure_pa[i] : -1.0;
       ColumnResult& r = results_[i];
-      analyzer.analyze(in, r);
+      if (with_ps && !io::detail::plausible_surface_pressure(in.surface_pressure_pa)) {
+        r.qc = QcCounts{};  // a surface pressure given but unusable: skipped and counted, never "absent"
+        r.set_missing(nz, levels != nullptr);
+        r.qc.columns_skipped = 1;
+        r.qc.surface_pressure_rejected = 1;
+      } else {
+        analyzer.analyze(in, r);
+      }
       float v[kScalarFields];
       scalar_field_values(r, v);
       for (std::size_t f = 0; f < kScalarFields; ++f) real[f][begin + i] = v[f];
@@ -341,6 +379,7 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
   output_options.block_columns = options.config.block_columns;
   output_options.deflate_level = options.config.deflate_level;
   if (output_options.settings.empty()) output_options.settings = config_to_toml(options.config);
+  check_grid_memory(input, options);
   OutputWriter writer(output, input, output_options);
   RunSummary summary;
   {
@@ -374,6 +413,7 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
     summary.input_wait_seconds = runner.input_wait_seconds;
     summary.output_wait_seconds += runner.output_wait_seconds;
   }
+  require_analysed_columns(input, summary);
   const auto commit_start = std::chrono::steady_clock::now();
   writer.commit(summary.qc);
   summary.output_wait_seconds += seconds_since(commit_start);
@@ -389,6 +429,7 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
     if (t >= grid.n_times)
       throw UsageError("time index " + std::to_string(t) + " outside the input (" + std::to_string(grid.n_times) +
                        " time steps)");
+  check_grid_memory(input, options);
   Runner runner(input, options);
   RunSummary summary;
   FieldSet fields;
@@ -416,6 +457,7 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
   summary.columns = steps.size() * grid.n_columns;
   summary.input_wait_seconds = runner.input_wait_seconds;
   summary.seconds = seconds_since(start);
+  require_analysed_columns(input, summary);
   return summary;
 }
 

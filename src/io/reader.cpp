@@ -10,6 +10,7 @@
 #include <sstream>
 
 #include "io/dataset_impl.hpp"
+#include "io/plausibility.hpp"
 #include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
@@ -148,8 +149,11 @@ struct Candidate {
 /// Find a variable of one of `wanted` in a file: CF standard_name first, then aliases.
 /// need_vertical: 3-D fields need a pressure dimension (a 2-D field sharing the standard_name,
 /// e.g. orography tagged geopotential_height, is never taken); surface fields must lack one.
+/// Two variables with the same standard_name are an InputError listing both, unless the user
+/// named one of them in the aliases of that quantity (`chosen`).
 Candidate find_quantity(int ncid, const std::vector<Wanted>& wanted, const InputAliases& aliases,
-                        bool need_vertical) {
+                        bool need_vertical, const std::string& path = "",
+                        const std::vector<std::string>& chosen = {}) {
   auto fits = [&](int varid) {
     VarShape shape = d::var_shape(ncid, varid);
     int vertical = 0;
@@ -158,10 +162,23 @@ Candidate find_quantity(int ncid, const std::vector<Wanted>& wanted, const Input
   };
   int nvars = 0;
   nc_inq_nvars(ncid, &nvars);
-  for (const Wanted& w : wanted)
+  for (const Wanted& w : wanted) {
+    std::vector<int> candidates;
     for (int v = 0; v < nvars; ++v)
-      if (d::text_attribute(ncid, v, "standard_name") == w.standard_name && fits(v))
-        return {v, w.standard_name};
+      if (d::text_attribute(ncid, v, "standard_name") == w.standard_name && fits(v)) candidates.push_back(v);
+    if (candidates.empty()) continue;
+    if (candidates.size() == 1 || path.empty()) return {candidates[0], w.standard_name};
+    auto it = aliases.find(w.standard_name);
+    if (it != aliases.end() && std::find(chosen.begin(), chosen.end(), w.standard_name) != chosen.end())
+      for (const std::string& name : it->second)
+        for (int v : candidates)
+          if (d::var_name(ncid, v) == name) return {v, w.standard_name};
+    std::string names;
+    for (int v : candidates) names += (names.empty() ? "'" : ", '") + d::var_name(ncid, v) + "'";
+    throw InputError(path, "", std::string("one variable with standard_name '") + w.standard_name + "', found " +
+                                   std::to_string(candidates.size()) + ": " + names + " (name the one to use with --set input." +
+                                   w.standard_name + "=NAME)");
+  }
   for (const Wanted& w : wanted) {
     auto it = aliases.find(w.standard_name);
     if (it == aliases.end()) continue;
@@ -202,6 +219,21 @@ const std::vector<Wanted> kSurfaceHeight = {{"surface_altitude", "m", HumidityKi
                                             {"surface_geopotential", "m2 s-2", HumidityKind::specific_humidity},
                                             {"geopotential_height", "m", HumidityKind::specific_humidity},
                                             {"geopotential", "m2 s-2", HumidityKind::specific_humidity}};
+
+/// An attribute as found (text or numbers), for the plausibility checks.
+d::AttributeValue attribute_value(int ncid, int varid, const char* name) {
+  d::AttributeValue value;
+  nc_type type = NC_NAT;
+  size_t length = 0;
+  if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) return value;
+  value.present = true;
+  value.is_text = type == NC_CHAR || type == NC_STRING;
+  if (value.is_text)
+    value.text = d::text_attribute(ncid, varid, name);
+  else
+    value.numbers = d::number_attribute(ncid, varid, name);
+  return value;
+}
 
 /// Build the VarRef of a found variable: packing, fill values, unit conversion to SI.
 VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
@@ -250,9 +282,14 @@ VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
     std::string expectation = "units convertible to '" + target + "' for " + var.quantity;
     if (var.quantity == "geopotential_height" || var.quantity == "surface_altitude")
       expectation = "units of geopotential (m2 s-2) or geopotential height (m)";
-    throw InputError(file.path(), var.name, expectation + " (" + e.what() + ")");
+    throw InputError(file.path(), var.name, expectation + " (" + d::shorten(e.what(), 160) + ")");
   }
 
+  for (const char* name : {"scale_factor", "add_offset", "_FillValue", "missing_value", "valid_range", "valid_min",
+                           "valid_max"})
+    d::check_packing_attribute(file.path(), var.name, name, attribute_value(ncid, found.varid, name));
+  var.si_per_unit = conv_scale * factor;
+  var.si_offset = conv_offset * factor;
   std::vector<double> scale = d::number_attribute(ncid, found.varid, "scale_factor");
   std::vector<double> offset = d::number_attribute(ncid, found.varid, "add_offset");
   double pack_scale = scale.empty() ? 1.0 : scale[0];
@@ -459,13 +496,14 @@ void check_same_coordinates(const InputDataset::Impl& impl, int file_index) {
 
 }  // namespace
 
-InputDataset::InputDataset(const std::vector<std::string>& input_paths, const InputAliases& aliases,
-                           const InputConventions& conventions)
-    : impl_(std::make_unique<Impl>()) {
-  Impl& impl = *impl_;
+namespace {
+
+void check_sampled_columns(const InputDataset& input);
+
+void open_files(InputDataset::Impl& impl, const std::vector<std::string>& input_paths, const InputAliases& aliases,
+                const InputConventions& conventions) {
+  const std::vector<std::string>& chosen = conventions.chosen_quantities;
   impl.conventions = conventions;
-  if (input_paths.empty()) throw UsageError("no input file given");
-  std::lock_guard<std::mutex> lock(d::netcdf_mutex());
   impl.input_paths = input_paths;
   std::vector<std::string> grib_paths;
   for (const std::string& path : input_paths) {
@@ -491,11 +529,11 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
   std::vector<Found> found(nfiles);
   for (int f = 0; f < nfiles; ++f) {
     int ncid = impl.files[f].id();
-    found[f].temp = find_quantity(ncid, kTemperature, aliases, true);
-    found[f].humidity = find_quantity(ncid, kHumidity, aliases, true);
-    found[f].height = find_quantity(ncid, kHeight, aliases, true);
-    found[f].surface_pressure = find_quantity(ncid, kSurfacePressure, aliases, false);
-    found[f].surface_height = find_quantity(ncid, kSurfaceHeight, aliases, false);
+    found[f].temp = find_quantity(ncid, kTemperature, aliases, true, paths[f], chosen);
+    found[f].humidity = find_quantity(ncid, kHumidity, aliases, true, paths[f], chosen);
+    found[f].height = find_quantity(ncid, kHeight, aliases, true, paths[f], chosen);
+    found[f].surface_pressure = find_quantity(ncid, kSurfacePressure, aliases, false, paths[f], chosen);
+    found[f].surface_height = find_quantity(ncid, kSurfaceHeight, aliases, false, paths[f], chosen);
   }
   std::string all_files;
   for (const std::string& path : paths) all_files += (all_files.empty() ? "" : ", ") + path;
@@ -525,6 +563,7 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
     int vertical = 0;
     std::vector<DimRole> roles = classify(ncid, varid, shape, vertical);
     GridDescription& grid = impl.grid;
+    std::string pressure_units;
     for (std::size_t i = 0; i < roles.size(); ++i) {
       const std::string& dim = shape.names[i];
       int coord = d::coordinate_var(ncid, dim);
@@ -532,8 +571,8 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
         grid.vertical = {dim, shape.lengths[i]};
         impl.vertical_coordinate = dim;
         grid.pressure_pa = d::read_all_doubles(ncid, coord, file.path());
-        std::string units = d::text_attribute(ncid, coord, "units");
-        d::UnitConverter(units, "Pa").convert(grid.pressure_pa.data(), grid.pressure_pa.size());
+        pressure_units = d::text_attribute(ncid, coord, "units");
+        d::UnitConverter(pressure_units, "Pa").convert(grid.pressure_pa.data(), grid.pressure_pa.size());
       } else if (roles[i] == DimRole::horizontal) {
         grid.horizontal.push_back({dim, shape.lengths[i]});
         impl.horizontal_coordinates.push_back(coord >= 0 ? dim : "");
@@ -553,11 +592,17 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
         ++time_dims;
       }
     if (time_dims > 1) throw InputError(file.path(), name, "at most one time dimension");
-    for (const double p : grid.pressure_pa)
-      if (!(p > 0.0))
-        throw InputError(file.path(), impl.vertical_coordinate, "positive pressure levels");
+    d::check_pressure_levels(file.path(), impl.vertical_coordinate, pressure_units, grid.pressure_pa);
     grid.n_columns = 1;
-    for (const Dimension& dim : grid.horizontal) grid.n_columns *= dim.length;
+    double columns = 1.0;
+    for (const Dimension& dim : grid.horizontal) {
+      if (dim.length == 0)
+        throw InputError(file.path(), name, "dimension '" + dim.name + "' has length 0: expected at least one column");
+      grid.n_columns *= dim.length;
+      columns *= static_cast<double>(dim.length);
+    }
+    d::check_memory(file.path(), name, "one level of " + std::to_string(static_cast<unsigned long long>(columns)) + " columns",
+                    columns * 8.0);
     find_lat_lon_aux(ncid, varid, shape, impl.lat_var, impl.lon_var);
     if (!impl.lat_var.empty()) {
       impl.aux_coordinates = {impl.lat_var, impl.lon_var};
@@ -568,6 +613,17 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
         if (coord >= 0 && is_latitude(ncid, coord)) impl.lat_var = dim.name;
         if (coord >= 0 && is_longitude(ncid, coord)) impl.lon_var = dim.name;
       }
+    }
+    for (const auto& [coordinate, is_lat] : {std::pair<std::string, bool>{impl.lat_var, true}, {impl.lon_var, false}}) {
+      if (coordinate.empty()) continue;
+      const int id = d::find_var(ncid, coordinate);
+      const std::vector<double> degrees = d::read_all_doubles(ncid, id, file.path());
+      const std::string units = d::text_attribute(ncid, id, "units");
+      const bool auxiliary = d::coordinate_var(ncid, coordinate) < 0;  // 2-D: may be missing outside a projection
+      if (is_lat)
+        d::check_latitudes(file.path(), coordinate, units, degrees, auxiliary);
+      else
+        d::check_longitudes(file.path(), coordinate, units, degrees, auxiliary);
     }
     if (grid.horizontal.size() == 1)
       grid.kind = HorizontalKind::unstructured;
@@ -721,7 +777,7 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
           try {
             d::UnitConverter(units, first_time_units).convert(values.data(), values.size());
           } catch (const std::invalid_argument& e) {
-            throw InputError(file.path(), time_dim, "time units convertible to '" + first_time_units + "' (" + e.what() + ")");
+            throw InputError(file.path(), time_dim, "time units convertible to '" + d::shorten(first_time_units) + "' (" + d::shorten(e.what(), 160) + ")");
           }
         }
         grid.time_values.insert(grid.time_values.end(), values.begin(), values.end());
@@ -740,7 +796,12 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
   }
   grid.n_times = impl.time_outer >= 0 ? offset : 1;
   grid.n_steps = 1;
-  for (const OuterDimension& dim : grid.outer) grid.n_steps *= dim.length;
+  for (const OuterDimension& dim : grid.outer) {
+    if (dim.length == 0)
+      throw InputError(all_files, impl.segments[0].temp.name, "dimension '" + dim.name + "' has length 0: expected at least one " +
+                                                               (dim.is_time ? "time step" : "index"));
+    grid.n_steps *= dim.length;
+  }
 
   // 6. Every variable on the same grid; coordinates equal across files.
   std::set<int> used_files;
@@ -797,6 +858,19 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
   }
   // 7. NetCDF-4 deflated variables: their chunks are read raw and inflated on every core.
   attach_chunk_readers(impl);
+}
+
+}  // namespace
+
+InputDataset::InputDataset(const std::vector<std::string>& input_paths, const InputAliases& aliases,
+                           const InputConventions& conventions)
+    : impl_(std::make_unique<Impl>()) {
+  if (input_paths.empty()) throw UsageError("no input file given");
+  {
+    std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+    open_files(*impl_, input_paths, aliases, conventions);
+  }
+  check_sampled_columns(*this);  // reads a sample through read_block, which takes the lock itself
 }
 
 InputDataset::~InputDataset() = default;
@@ -1128,6 +1202,61 @@ void InputDataset::prepare_block_reads(std::size_t block_columns) const {
     }
 }
 
+namespace {
+
+d::FieldOrigin origin_of(const InputDataset::Impl& impl, const VarRef& var) {
+  d::FieldOrigin origin;
+  if (!var.present()) return origin;
+  origin.file = impl.paths[var.file];
+  origin.variable = var.name;
+  origin.units = var.units;
+  origin.quantity = var.quantity;
+  origin.si_per_unit = var.si_per_unit;
+  origin.si_offset = var.si_offset;
+  return origin;
+}
+
+/// Judge each quantity as a whole on a sample of columns (up to three part-rows across the
+/// grid, the first step of each file), before any column is analysed.
+void check_sampled_columns(const InputDataset& input) {
+  const InputDataset::Impl& impl = input.impl();
+  const GridDescription& grid = impl.grid;
+  constexpr std::size_t kSampleColumns = 1024;  // per part-row
+  std::vector<ColumnRange> ranges;
+  const std::size_t row = grid.horizontal.size() == 2 ? grid.horizontal[1].length : grid.n_columns;
+  const std::size_t rows = grid.n_columns / row;
+  for (std::size_t quarter = 1; quarter <= 3; ++quarter) {
+    std::size_t begin = grid.horizontal.size() == 2 ? (rows * quarter / 4) * row : grid.n_columns * quarter / 4;
+    ColumnRange range{begin, std::min(kSampleColumns, grid.horizontal.size() == 2 ? row : grid.n_columns - begin)};
+    if (range.count == 0 || (!ranges.empty() && ranges.back().begin == range.begin)) continue;
+    ranges.push_back(range);
+  }
+  for (const Segment& segment : impl.segments) {
+    std::size_t step = 0;
+    while (step + 1 < grid.n_steps && time_index_of_step(grid, step) != segment.time_offset) ++step;
+    d::ColumnSample sample;
+    sample.pressure_pa = grid.pressure_pa;
+    sample.humidity_kind = impl.humidity_kind;
+    sample.temp = origin_of(impl, segment.temp);
+    sample.humidity_origin = origin_of(impl, segment.humidity);
+    sample.height = origin_of(impl, segment.height);
+    sample.surface_pressure = origin_of(impl, segment.surface_pressure);
+    ColumnBlock block;
+    for (const ColumnRange& range : ranges) {
+      input.read_block(step, range, block);
+      sample.n_columns += range.count;
+      sample.temp_k.insert(sample.temp_k.end(), block.temp_k.begin(), block.temp_k.end());
+      sample.humidity.insert(sample.humidity.end(), block.humidity.begin(), block.humidity.end());
+      sample.height_m.insert(sample.height_m.end(), block.height_m.begin(), block.height_m.end());
+      sample.surface_pressure_pa.insert(sample.surface_pressure_pa.end(), block.surface_pressure_pa.begin(),
+                                        block.surface_pressure_pa.end());
+    }
+    d::check_sample(sample);
+  }
+}
+
+}  // namespace
+
 void InputDataset::throw_all_missing(std::size_t step, bool any_temp, bool any_humidity, bool any_height) const {
   const Impl& impl = *impl_;
   std::vector<std::size_t> outer = step_indices(impl.grid, step);
@@ -1144,6 +1273,8 @@ void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<doub
   const Impl& impl = *impl_;
   const GridDescription& grid = impl.grid;
   const NcFile& file = impl.files[impl.grid_file];
+  d::check_memory(file.path(), "", "latitudes and longitudes of " + std::to_string(grid.n_columns) + " columns",
+                  4.0 * 8.0 * static_cast<double>(grid.n_columns));
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
   if ((impl.lat_var.empty() || impl.lon_var.empty()) && grid.kind == HorizontalKind::projected &&
       !grid.grid_mapping.empty() && d::coordinate_var(file.id(), grid.horizontal[0].name) >= 0 &&

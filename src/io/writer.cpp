@@ -573,6 +573,7 @@ void OutputWriter::commit(const QcCounts& qc) {
     put_count("qc_humidity_clipped", qc.humidity_clipped);
     put_count("qc_dew_point_corrected", qc.dew_point_corrected);
     put_count("qc_temperature_rejected", qc.temperature_rejected);
+    put_count("qc_surface_pressure_rejected", qc.surface_pressure_rejected);
     d::check(nc_enddef(out), impl.temporary, "leaving define mode");
     impl.file.close();
   }

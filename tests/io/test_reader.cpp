@@ -65,12 +65,12 @@ TEST_F(Reader, FindsQuantitiesByConfiguredAliasesWithoutStandardNames) {
 
 TEST_F(Reader, ConvertsCelsiusToKelvin) {
   std::vector<Var> vars = grid.standard();
-  vars[4] = grid.var("temp", "air_temperature", "degC", [](const Index& i) { return SmallGrid::temp_k(i) - 300.0; });
+  vars[4] = grid.var("temp", "air_temperature", "degC", [](const Index& i) { return SmallGrid::temp_k(i) - kZeroCelsiusK; });
   test::write_nc(path("in.nc"), grid.dims, vars);
   InputDataset input({path("in.nc")}, no_aliases());
   ColumnBlock block;
   input.read_block(1, {0, 12}, block);
-  const double celsius = static_cast<float>(SmallGrid::temp_k(idx(1, 2, 1, 1)) - 300.0);
+  const double celsius = static_cast<float>(SmallGrid::temp_k(idx(1, 2, 1, 1)) - kZeroCelsiusK);
   EXPECT_NEAR(at(block.temp_k, 4, 1, 1, 2), celsius + kZeroCelsiusK, 1e-9);
 }
 
@@ -122,6 +122,11 @@ TEST_F(Reader, KeepsAscendingPressureLevelsInTheInputOrder) {
   std::vector<Var> vars = up.standard();
   vars[1].atts = {{"units", "Pa"}};
   vars[1].data = {50000, 70000, 85000, 100000};
+  vars[6] = up.var("height", "geopotential_height", "m", [](const Index& i) {  // heights follow the pressures
+    Index flipped = i;
+    flipped["level"] = 3 - i.at("level");
+    return SmallGrid::z_m(flipped);
+  });
   test::write_nc(path("in.nc"), up.dims, vars);
   InputDataset input({path("in.nc")}, no_aliases());
   EXPECT_EQ(input.grid().pressure_pa, (std::vector<double>{50000, 70000, 85000, 100000}));
@@ -336,7 +341,7 @@ TEST_F(Reader, JoinsSeveralFilesAlongTime) {
   SmallGrid g;
   std::vector<Var> first = g.standard(), second = g.standard();
   second[0].data = {12, 18};
-  for (std::size_t v = 4; v < 7; ++v)
+  for (std::size_t v : {4, 6})  // temperature and height (a humidity of 1 kg/kg would be implausible)
     for (double& x : second[v].data) x += 1.0;
   test::write_nc(path("a.nc"), g.dims, first);
   test::write_nc(path("b.nc"), g.dims, second);
@@ -368,7 +373,7 @@ TEST_F(Reader, PairsOneSurfaceFileWithAllTimesWithOneFilePerTimeStep) {
   for (int t = 0; t < 2; ++t) {
     std::vector<Var> vars = one.standard();
     vars[0].data = {6.0 * t};
-    for (std::size_t v = 4; v < 7; ++v)
+    for (std::size_t v : {4, 6})  // temperature and height (a humidity of 1 kg/kg would be implausible)
       for (double& x : vars[v].data) x += t;
     test::write_nc(path("pl" + std::to_string(t) + ".nc"), one.dims, vars);
   }
