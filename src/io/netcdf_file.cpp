@@ -1,8 +1,9 @@
-// Internal netCDF-C layer of the gis module.
+// Internal netCDF-C layer for reading analysis outputs and writing map grids (maps, stats).
 #include "io/netcdf_file.hpp"
 
 #include <cmath>
 
+#include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::io::detail {
@@ -11,23 +12,31 @@ void check(int status, const std::string& file, const std::string& variable, con
   if (status == NC_NOERR) return;
   std::string text = file;
   if (!variable.empty()) text += ": variable '" + variable + "'";
-  throw Error(text + ": " + action + ": " + nc_strerror(status));
+  throw Error(text + ": " + action + ": " + system_reason(status, file));
 }
+
+namespace {
+/// A failed read of an input file: the file is damaged (exit 2), not the machine.
+void check_read(int status, const std::string& file, const std::string& variable, const std::string& action) {
+  if (status == NC_NOERR) return;
+  throw InputError(file, variable, "readable " + action + " (" + nc_strerror(status) + "; is the file damaged or truncated?)");
+}
+}  // namespace
 
 VarInfo var_info(const NcFile& file, int varid) {
   VarInfo info;
   info.id = varid;
   char name[NC_MAX_NAME + 1] = {0};
   int ndims = 0;
-  check(nc_inq_var(file.id(), varid, name, &info.type, &ndims, nullptr, nullptr), file.path(), "",
-        "cannot inquire variable");
+  check_read(nc_inq_var(file.id(), varid, name, &info.type, &ndims, nullptr, nullptr), file.path(), "",
+             "variable " + std::to_string(varid));
   info.name = name;
   info.dim_ids.resize(ndims);
-  if (ndims > 0) check(nc_inq_vardimid(file.id(), varid, info.dim_ids.data()), file.path(), name, "dimensions");
+  if (ndims > 0) check_read(nc_inq_vardimid(file.id(), varid, info.dim_ids.data()), file.path(), name, "dimensions");
   for (int dim : info.dim_ids) {
     char dim_name[NC_MAX_NAME + 1] = {0};
     std::size_t length = 0;
-    check(nc_inq_dim(file.id(), dim, dim_name, &length), file.path(), name, "dimension");
+    check_read(nc_inq_dim(file.id(), dim, dim_name, &length), file.path(), name, "dimension");
     info.dim_names.push_back(dim_name);
     info.shape.push_back(length);
   }
@@ -36,7 +45,7 @@ VarInfo var_info(const NcFile& file, int varid) {
 
 std::vector<VarInfo> all_variables(const NcFile& file) {
   int count = 0;
-  check(nc_inq_nvars(file.id(), &count), file.path(), "", "cannot count variables");
+  check_read(nc_inq_nvars(file.id(), &count), file.path(), "", "variables");
   std::vector<VarInfo> out;
   for (int i = 0; i < count; ++i) out.push_back(var_info(file, i));
   return out;
@@ -74,31 +83,31 @@ AttributeList read_attributes(int ncid, const std::string& path, int varid) {
   const RawFile file{ncid, path};
   int count = 0;
   if (varid == NC_GLOBAL)
-    check(nc_inq_natts(file.id(), &count), file.path(), "", "attributes");
+    check_read(nc_inq_natts(file.id(), &count), file.path(), "", "attributes");
   else
-    check(nc_inq_varnatts(file.id(), varid, &count), file.path(), var_name(file, varid), "attributes");
+    check_read(nc_inq_varnatts(file.id(), varid, &count), file.path(), var_name(file, varid), "attributes");
   AttributeList out;
   for (int i = 0; i < count; ++i) {
     char name[NC_MAX_NAME + 1] = {0};
-    check(nc_inq_attname(file.id(), varid, i, name), file.path(), var_name(file, varid), "attribute name");
+    check_read(nc_inq_attname(file.id(), varid, i, name), file.path(), var_name(file, varid), "attribute name");
     nc_type type = NC_NAT;
     std::size_t length = 0;
-    check(nc_inq_att(file.id(), varid, name, &type, &length), file.path(), var_name(file, varid), name);
+    check_read(nc_inq_att(file.id(), varid, name, &type, &length), file.path(), var_name(file, varid), name);
     if (type == NC_CHAR) {
       std::string text(length, '\0');
-      if (length > 0) check(nc_get_att_text(file.id(), varid, name, text.data()), file.path(), var_name(file, varid), name);
+      if (length > 0) check_read(nc_get_att_text(file.id(), varid, name, text.data()), file.path(), var_name(file, varid), name);
       while (!text.empty() && text.back() == '\0') text.pop_back();
       out.push_back({name, text});
     } else if (type == NC_STRING) {
       std::vector<char*> strings(length, nullptr);
-      check(nc_get_att_string(file.id(), varid, name, strings.data()), file.path(), var_name(file, varid), name);
+      check_read(nc_get_att_string(file.id(), varid, name, strings.data()), file.path(), var_name(file, varid), name);
       std::string text;
       for (std::size_t k = 0; k < length; ++k) text += (k ? " " : "") + std::string(strings[k] ? strings[k] : "");
       nc_free_string(length, strings.data());
       out.push_back({name, text});
     } else {
       std::vector<double> values(length);
-      if (length > 0) check(nc_get_att_double(file.id(), varid, name, values.data()), file.path(), var_name(file, varid), name);
+      if (length > 0) check_read(nc_get_att_double(file.id(), varid, name, values.data()), file.path(), var_name(file, varid), name);
       out.push_back({name, values});
     }
   }
@@ -124,7 +133,7 @@ std::optional<std::vector<double>> number_attribute(const NcFile& file, int vari
   if (nc_inq_att(file.id(), varid, name.c_str(), &type, &length) != NC_NOERR) return std::nullopt;
   if (type == NC_CHAR || type == NC_STRING || length == 0) return std::nullopt;
   std::vector<double> values(length);
-  check(nc_get_att_double(file.id(), varid, name.c_str(), values.data()), file.path(), var_name(file, varid), name);
+  check_read(nc_get_att_double(file.id(), varid, name.c_str(), values.data()), file.path(), var_name(file, varid), name);
   return values;
 }
 
@@ -153,16 +162,21 @@ void write_attributes(NcFile& file, int varid, const AttributeList& attributes) 
 
 std::vector<double> read_doubles(const NcFile& file, const VarInfo& var) {
   std::size_t size = 1;
-  for (auto n : var.shape) size *= n;
+  double bytes = 8.0;
+  for (auto n : var.shape) {
+    size *= n;
+    bytes *= static_cast<double>(n);
+  }
+  check_memory(file.path(), var.name, "reading it", bytes);
   std::vector<double> values(size);
-  if (size > 0) check(nc_get_var_double(file.id(), var.id, values.data()), file.path(), var.name, "cannot read");
+  if (size > 0) check_read(nc_get_var_double(file.id(), var.id, values.data()), file.path(), var.name, "numeric values");
   return values;
 }
 
 void read_slab(const NcFile& file, const VarInfo& var, const std::vector<std::size_t>& start,
                const std::vector<std::size_t>& count, double* out) {
-  check(nc_get_vara_double(file.id(), var.id, start.data(), count.data(), out), file.path(), var.name,
-        "cannot read");
+  check_read(nc_get_vara_double(file.id(), var.id, start.data(), count.data(), out), file.path(), var.name,
+             "numeric values");
 }
 
 double Unpacking::operator()(double stored) const {
@@ -174,6 +188,7 @@ double Unpacking::operator()(double stored) const {
 }
 
 Unpacking unpacking_of(const NcFile& file, const VarInfo& var) {
+  check_packing_attributes(file.id(), var.id, file.path(), var.name);
   Unpacking u;
   if (auto v = number_attribute(file, var.id, "scale_factor")) u.scale = v->front();
   if (auto v = number_attribute(file, var.id, "add_offset")) u.offset = v->front();

@@ -240,6 +240,23 @@ std::vector<double> number_attribute(int ncid, int varid, const char* name) {
   return values;
 }
 
+void check_packing_attributes(int ncid, int varid, const std::string& file, const std::string& variable) {
+  for (const char* name : {"scale_factor", "add_offset", "_FillValue", "missing_value", "valid_range", "valid_min",
+                           "valid_max"}) {
+    AttributeValue value;
+    nc_type type = NC_NAT;
+    size_t length = 0;
+    if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) continue;
+    value.present = true;
+    value.is_text = type == NC_CHAR || type == NC_STRING;
+    if (value.is_text)
+      value.text = text_attribute(ncid, varid, name);
+    else
+      value.numbers = number_attribute(ncid, varid, name);
+    check_packing_attribute(file, variable, name, value);
+  }
+}
+
 std::vector<double> read_all_doubles(int ncid, int varid, const std::string& file) {
   VarShape shape = var_shape(ncid, varid);
   size_t n = 1;

@@ -69,7 +69,10 @@ std::string text_attribute(int ncid, int varid, const char* name);
 std::vector<double> number_attribute(int ncid, int varid, const char* name);
 /// The current UTC time as ISO 8601 (YYYY-MM-DDThh:mm:ssZ), for CF history attributes.
 std::string utc_timestamp();
-/// All values of a variable as double (no unpacking).
+/// InputError unless the packing and fill attributes of a variable are well formed
+/// (numeric, scalar, finite, non-zero scale: io::detail::check_packing_attribute).
+void check_packing_attributes(int ncid, int varid, const std::string& file, const std::string& variable);
+/// All values of a variable as double (no unpacking); InputError when unreadable or too large.
 std::vector<double> read_all_doubles(int ncid, int varid, const std::string& file);
 
 }  // namespace latentlift::io::detail

@@ -220,21 +220,6 @@ const std::vector<Wanted> kSurfaceHeight = {{"surface_altitude", "m", HumidityKi
                                             {"geopotential_height", "m", HumidityKind::specific_humidity},
                                             {"geopotential", "m2 s-2", HumidityKind::specific_humidity}};
 
-/// An attribute as found (text or numbers), for the plausibility checks.
-d::AttributeValue attribute_value(int ncid, int varid, const char* name) {
-  d::AttributeValue value;
-  nc_type type = NC_NAT;
-  size_t length = 0;
-  if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) return value;
-  value.present = true;
-  value.is_text = type == NC_CHAR || type == NC_STRING;
-  if (value.is_text)
-    value.text = d::text_attribute(ncid, varid, name);
-  else
-    value.numbers = d::number_attribute(ncid, varid, name);
-  return value;
-}
-
 /// Build the VarRef of a found variable: packing, fill values, unit conversion to SI.
 VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
   const int ncid = file.id();
@@ -285,9 +270,7 @@ VarRef make_var(const NcFile& file, int file_index, const Candidate& found) {
     throw InputError(file.path(), var.name, expectation + " (" + d::shorten(e.what(), 160) + ")");
   }
 
-  for (const char* name : {"scale_factor", "add_offset", "_FillValue", "missing_value", "valid_range", "valid_min",
-                           "valid_max"})
-    d::check_packing_attribute(file.path(), var.name, name, attribute_value(ncid, found.varid, name));
+  d::check_packing_attributes(ncid, found.varid, file.path(), var.name);
   var.si_per_unit = conv_scale * factor;
   var.si_offset = conv_offset * factor;
   std::vector<double> scale = d::number_attribute(ncid, found.varid, "scale_factor");

@@ -3,8 +3,10 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <sstream>
 
+#include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::maps::detail {
@@ -66,6 +68,20 @@ void require_monotonic(const io::detail::NcFile& file, const std::string& name, 
   for (double v : c)
     if (!std::isfinite(v)) up = down = false;
   if (!up && !down) throw InputError(file.path(), name, "strictly monotonic, finite coordinate values");
+}
+
+/// A grid with cells, and latitudes/longitudes within their ranges (io::detail plausibility).
+void check_grid(const io::detail::NcFile& file, const io::detail::VarInfo& field, const SourceGrid& grid, bool geographic) {
+  for (std::size_t k = 0; k < grid.shape.size(); ++k)
+    if (grid.shape[k] == 0)
+      throw InputError(file.path(), field.name, "dimension '" + grid.dims[k] + "' has length 0: expected at least one cell");
+  if (grid.kind == SourceGrid::Kind::points) {
+    io::detail::check_latitudes(file.path(), "latitude", "degrees_north", grid.lat, true);
+    io::detail::check_longitudes(file.path(), "longitude", "degrees_east", grid.lon, true);
+  } else if (geographic) {
+    io::detail::check_latitudes(file.path(), grid.y_name, "degrees_north", grid.y, false);
+    io::detail::check_longitudes(file.path(), grid.x_name, "degrees_east", grid.x, false);
+  }
 }
 
 }  // namespace
@@ -131,6 +147,7 @@ SourceGrid grid_of(const io::detail::NcFile& file, const io::detail::VarInfo& fi
           throw InputError(file.path(), grid.mapping_variable,
                            "a latitude_longitude grid_mapping for longitude/latitude axes, not " + grid.crs->name());
       }
+      check_grid(file, field, grid, geographic);
       return grid;
     }
   }
@@ -158,6 +175,7 @@ SourceGrid grid_of(const io::detail::NcFile& file, const io::detail::VarInfo& fi
   grid.shape = lon->shape;
   grid.lon = io::detail::read_doubles(file, *lon);
   grid.lat = io::detail::read_doubles(file, *lat);
+  check_grid(file, field, grid, true);
   auto crs = mapping_crs();
   grid.crs = crs ? crs->geodetic() : geo::Crs::wgs84();
   return grid;
@@ -197,10 +215,21 @@ std::vector<double> read_slice(const io::detail::NcFile& file, const io::detail:
     start.push_back(0);
     count.push_back(grid.shape[k]);
   }
+  io::detail::check_memory(file.path(), field.name, "one map of it", 8.0 * static_cast<double>(grid.size()));
   std::vector<double> values(grid.size());
   io::detail::read_slab(file, field, start, count, values.data());
   io::detail::Unpacking unpack = io::detail::unpacking_of(file, field);
   for (double& v : values) v = unpack(v);
+  // Validated like model inputs: never an infinite value, and a class field only its flag_values.
+  for (double v : values)
+    if (std::isinf(v)) throw InputError(file.path(), field.name, "finite values or the fill value (found infinite values)");
+  if (auto flags = io::detail::number_attribute(file, field.id, "flag_values"))
+    for (double v : values)
+      if (!std::isnan(v) && std::find(flags->begin(), flags->end(), v) == flags->end()) {
+        char found[32];
+        std::snprintf(found, sizeof found, "%g", v);
+        throw InputError(file.path(), field.name, std::string("only its flag_values or the fill value (found ") + found + ")");
+      }
   return values;
 }
 

@@ -15,6 +15,7 @@
 #include "latentlift/climatology.hpp"
 #include "latentlift/comm.hpp"
 #include "latentlift/config.hpp"
+#include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/parallel.hpp"
 #include "latentlift/pipeline.hpp"
@@ -170,6 +171,15 @@ void reduce_to_root(comm::Communicator& c, Accumulator& acc) {
 
 // The whole state of the grid, or an Error saying how much memory it needs.
 Accumulator make_accumulator(const detail::StatsMetadata& meta) {
+  {  // a grid too large for the machine is a damaged or absurd input (exit 2), said before allocating
+    double bins = 0;
+    for (const auto& s : field_specs()) bins += s.bin_count();
+    const double bytes_per_cell = 3 * 4 + kFieldCount * 28 + 4.0 * bins + 4.0 * kStabilityClassCount * meta.grid.levels;
+    io::detail::check_memory(meta.input_files.empty() ? std::string("climatology") : meta.input_files.front(), "",
+                             "the statistics of " + std::to_string(meta.grid.points) + " grid points x " +
+                                 std::to_string(group_count(meta.group_by)) + " groups",
+                             bytes_per_cell * static_cast<double>(meta.grid.points) * group_count(meta.group_by));
+  }
   try {
     return Accumulator(meta.group_by, meta.grid.points, static_cast<int>(meta.grid.levels));
   } catch (const std::bad_alloc&) {

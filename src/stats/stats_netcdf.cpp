@@ -15,6 +15,7 @@
 #include <mutex>
 
 #include "io/netcdf_util.hpp"
+#include "io/plausibility.hpp"
 #include "io/temporary_output.hpp"
 #include "io/units.hpp"
 #include <set>
@@ -248,6 +249,9 @@ AnalysisInput scan_analysis_output(const std::string& path) {
   }
   if (in.grid.dims.empty() || in.grid.dims.size() > 2)
     throw InputError(path, "latent_class", "one or two horizontal dimensions besides time");
+  for (std::size_t k = 0; k < in.grid.dims.size(); ++k)
+    if (in.grid.sizes[k] == 0)
+      throw InputError(path, "latent_class", "dimension '" + in.grid.dims[k] + "' has length 0: expected at least one cell");
   in.grid.grid_mapping = text_att(nc.id(), cls, "grid_mapping");
   in.grid.coordinates = text_att(nc.id(), cls, "coordinates");
   for (const auto& spec : field_specs()) {
@@ -312,6 +316,7 @@ struct AnalysisReader::Impl {
     v.varid = find_var(nc.id(), name);
     if (v.varid < 0) throw InputError(input.path, name, "a latentlift analyze output field (variable missing)");
     v.dims = var_shape(nc.id(), v.varid);
+    io::detail::check_packing_attributes(nc.id(), v.varid, input.path, name);
     auto sf = number_att(nc.id(), v.varid, "scale_factor");
     auto ao = number_att(nc.id(), v.varid, "add_offset");
     if (!sf.empty()) v.scale = sf[0];
@@ -338,8 +343,10 @@ struct AnalysisReader::Impl {
       total *= count[i];
     }
     buffer.resize(total);
-    check(nc_get_vara_double(nc.id(), v.varid, start.data(), count.data(), buffer.data()), input.path,
-          "reading " + v.name);
+    const int status = nc_get_vara_double(nc.id(), v.varid, start.data(), count.data(), buffer.data());
+    if (status != NC_NOERR)  // a damaged input, not the machine
+      throw InputError(input.path, v.name, std::string("readable values (") + nc_strerror(status) +
+                                               "; is the file damaged or truncated?)");
   }
 
   bool is_fill(const Var& v, double raw) const {
@@ -380,6 +387,8 @@ void AnalysisReader::read(size_t t, StepBuffers& out) {
     for (size_t p = 0; p < np; ++p) {
       const double raw = m.buffer[p];
       dst[p] = m.is_fill(v, raw) ? kNaN : (raw * v.scale + v.offset) * v.to_scale + v.to_offset;
+      if (std::isinf(dst[p]))  // never data: validated like model inputs
+        throw InputError(m.input.path, v.name, "finite values or the fill value (found infinite values)");
     }
   }
   auto to_class = [&](const Impl::Var& v, double raw, int max_code) -> std::int8_t {

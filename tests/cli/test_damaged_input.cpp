@@ -12,16 +12,10 @@
 namespace latentlift::test::cli {
 namespace {
 
-/// Heights consistent with SmallGrid's temperatures by the hypsometric equation (tests/io/test_plausibility.cpp).
-double consistent_z_m(const Index& i) {
-  static const double z[] = {100.0, 1480.0, 3070.0, 5720.0};
-  return z[i.at("level")] + i.at("lat") + 0.1 * i.at("lon");
-}
-
 std::vector<Var> small_grid_vars(int deflate_level = 0) {
   SmallGrid grid;
   std::vector<Var> vars = grid.standard();
-  vars[6] = grid.var("height", "geopotential_height", "m", consistent_z_m);
+  vars[6] = grid.var("height", "geopotential_height", "m", SmallGrid::hypsometric_z_m);
   for (std::size_t v = 4; v < 7; ++v) vars[v].deflate_level = deflate_level;
   return vars;
 }

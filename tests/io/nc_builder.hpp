@@ -110,6 +110,14 @@ struct SmallGrid {
   static double temp_k(const Index& i) { return 295.0 - 10.0 * i.at("level") + i.at("lat") + 0.1 * i.at("lon") + 0.5 * i.at("time"); }
   static double q(const Index& i) { return 0.012 - 0.003 * i.at("level") + 0.0001 * i.at("lon"); }
   static double z_m(const Index& i) { return 100.0 + 1400.0 * i.at("level") + 3.0 * i.at("lat") + i.at("lon"); }
+  /// Heights that agree with temp_k by the hypsometric equation within a few per cent (for inputs
+  /// that must pass the plausibility checks): 1000 hPa at 100 m, then layer thicknesses
+  /// Rd/g T ln(p1/p2) at about the layers' mean temperatures (Rd = 287.04 J kg-1 K-1, Bolton 1980;
+  /// g = 9.80665 m s-2): 1380, 1590 and 2650 m.
+  static double hypsometric_z_m(const Index& i) {
+    static const double z[] = {100.0, 1480.0, 3070.0, 5720.0};
+    return z[i.at("level")] + i.at("lat") + 0.1 * i.at("lon");
+  }
 
   std::vector<Var> coordinates(const std::string& level_units = "hPa") const {
     return {

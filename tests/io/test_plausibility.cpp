@@ -27,13 +27,6 @@ using test::Var;
 constexpr double kZeroCelsiusK = 273.15;  // K (SI definition of the Celsius scale)
 constexpr double kGravity = 9.80665;      // m s-2 (standard gravity, CGPM 1901)
 
-/// Heights that agree with SmallGrid's temperatures by the hypsometric equation within a few per
-/// cent: 1000 hPa at 100 m, then layer thicknesses Rd/g * T * ln(p1/p2) at about the mean
-/// temperatures of SmallGrid (Rd = 287.04 J kg-1 K-1, Bolton 1980): 1380, 1590 and 2650 m.
-double consistent_z_m(const Index& i) {
-  static const double z[] = {100.0, 1480.0, 3070.0, 5720.0};
-  return z[i.at("level")] + i.at("lat") + 0.1 * i.at("lon");
-}
 
 class Plausibility : public ::testing::Test {
  protected:
@@ -44,7 +37,7 @@ class Plausibility : public ::testing::Test {
   /// The standard small grid with hypsometrically consistent heights; index 4 temp, 5 hum, 6 height.
   std::vector<Var> vars() const {
     std::vector<Var> v = grid.standard();
-    v[6] = grid.var("height", "geopotential_height", "m", consistent_z_m);
+    v[6] = grid.var("height", "geopotential_height", "m", SmallGrid::hypsometric_z_m);
     return v;
   }
 
@@ -139,7 +132,7 @@ TEST_F(Plausibility, RelativeHumidityAsFractionLabelledPercentIsRefused) {
 
 TEST_F(Plausibility, NegatedGeopotentialHeightIsRefused) {
   std::vector<Var> v = vars();
-  v[6] = grid.var("height", "geopotential_height", "m", [](const Index& i) { return -consistent_z_m(i); });
+  v[6] = grid.var("height", "geopotential_height", "m", [](const Index& i) { return -SmallGrid::hypsometric_z_m(i); });
   const std::string message = open_error(v);
   EXPECT_NE(message.find("geopotential height in 'm' decreases upward in 12 of 12 sampled columns"), std::string::npos)
       << message;
@@ -147,7 +140,7 @@ TEST_F(Plausibility, NegatedGeopotentialHeightIsRefused) {
 
 TEST_F(Plausibility, GeopotentialLabelledMetresIsRefusedByTheHypsometricEquation) {
   std::vector<Var> v = vars();
-  v[6] = grid.var("height", "geopotential_height", "m", [](const Index& i) { return kGravity * consistent_z_m(i); });
+  v[6] = grid.var("height", "geopotential_height", "m", [](const Index& i) { return kGravity * SmallGrid::hypsometric_z_m(i); });
   const std::string message = open_error(v);
   EXPECT_NE(message.find("the values look like geopotential (m2 s-2), not geopotential height (m)"), std::string::npos)
       << message;
@@ -173,7 +166,7 @@ TEST_F(Plausibility, HeightsOutOfOrderInMostColumnsAreRefused) {
     static const std::size_t swapped[] = {0, 2, 1, 3};  // data of 700 and 850 hPa exchanged
     Index j = i;
     j["level"] = swapped[i.at("level")];
-    return consistent_z_m(j);
+    return SmallGrid::hypsometric_z_m(j);
   });
   const std::string message = open_error(v);
   EXPECT_NE(message.find("is not monotonic in pressure in 12 of 12 sampled columns"), std::string::npos) << message;
