@@ -14,6 +14,7 @@
 #include <limits>
 #include <mutex>
 
+#include "io/netcdf_file.hpp"
 #include "io/netcdf_util.hpp"
 #include "io/plausibility.hpp"
 #include "io/temporary_output.hpp"
@@ -22,6 +23,7 @@
 #include <sstream>
 #include <utility>
 
+#include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::climatology::detail {
@@ -253,6 +255,12 @@ AnalysisInput scan_analysis_output(const std::string& path) {
     if (in.grid.sizes[k] == 0)
       throw InputError(path, "latent_class", "dimension '" + in.grid.dims[k] + "' has length 0: expected at least one cell");
   in.grid.grid_mapping = text_att(nc.id(), cls, "grid_mapping");
+  if (!in.grid.grid_mapping.empty()) {  // validated like any input: a mapping PROJ understands
+    const int mapping = find_var(nc.id(), in.grid.grid_mapping);
+    if (mapping < 0)
+      throw InputError(path, "latent_class", "its grid_mapping variable '" + io::detail::shorten(in.grid.grid_mapping) + "' in the file");
+    geo::Crs::from_grid_mapping(io::detail::read_attributes(nc.id(), path, mapping), path, in.grid.grid_mapping);
+  }
   in.grid.coordinates = text_att(nc.id(), cls, "coordinates");
   for (const auto& spec : field_specs()) {
     const int v = find_var(nc.id(), spec.name);
