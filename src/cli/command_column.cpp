@@ -178,7 +178,8 @@ std::string report(ColumnArgs args) {
   ColumnResult r;
   const std::string where = "the column at " + number(lats[best], 4) + ", " + number(lons[best], 4) + " (time index " +
                             std::to_string(args.time) + ")";
-  if (!block.surface_pressure_pa.empty() && !io::detail::plausible_surface_pressure(in.surface_pressure_pa))
+  if (!block.surface_pressure_pa.empty() && input.surface_pressure_source() == SurfacePressureSource::input &&
+      !io::detail::plausible_surface_pressure(in.surface_pressure_pa))
     throw InputError(args.input, "", where + ": a surface pressure from 300 to 1100 hPa (found " +
                                          (std::isnan(in.surface_pressure_pa) ? std::string("a missing value")
                                                                              : number(in.surface_pressure_pa / 100.0, 1) + " hPa") +

@@ -268,6 +268,9 @@ class Runner {
     }
     const double* pressure = grid_.pressure_pa.data();
     const bool with_ps = !block.surface_pressure_pa.empty();
+    // A surface pressure read from the input must be usable; one derived from the surface
+    // height may be unknown (NaN) where the column's heights are.
+    const bool ps_from_input = input_.surface_pressure_source() == SurfacePressureSource::input;
     auto analyze_one = [&](long i) {
       ColumnAnalyzer& analyzer = *analyzers_[parallel::thread_index()];
       ColumnInput in;
@@ -279,7 +282,7 @@ class Runner {
       in.height_m = &block.height_m[i * nz];
       in.surface_pressure_pa = with_ps ? block.surface_pressure_pa[i] : -1.0;
       ColumnResult& r = results_[i];
-      if (with_ps && !io::detail::plausible_surface_pressure(in.surface_pressure_pa)) {
+      if (with_ps && ps_from_input && !io::detail::plausible_surface_pressure(in.surface_pressure_pa)) {
         r.qc = QcCounts{};  // a surface pressure given but unusable: skipped and counted, never "absent"
         r.set_missing(nz, levels != nullptr);
         r.qc.columns_skipped = 1;
