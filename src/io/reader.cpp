@@ -516,7 +516,7 @@ void open_files(InputDataset::Impl& impl, const std::vector<std::string>& input_
     found[f].humidity = find_quantity(ncid, kHumidity, aliases, true, paths[f], chosen);
     found[f].height = find_quantity(ncid, kHeight, aliases, true, paths[f], chosen);
     found[f].surface_pressure = find_quantity(ncid, kSurfacePressure, aliases, false, paths[f], chosen);
-    found[f].surface_height = find_quantity(ncid, kSurfaceHeight, aliases, false, paths[f], chosen);
+    found[f].surface_height = find_quantity(ncid, kSurfaceHeight, aliases, false);  // several 2-D heights are common: first
   }
   std::string all_files;
   for (const std::string& path : paths) all_files += (all_files.empty() ? "" : ", ") + path;
