@@ -10,6 +10,7 @@
 # Environment: LATENTLIFT_BUILD (default build/), TMPDIR for the temporary folder.
 # As root, OpenMPI needs OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 (set here).
 set -euo pipefail
+case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${LATENTLIFT_BUILD:-"$here/build"}
 ranks="1 2"

@@ -8,6 +8,7 @@
 #   --keep       keep the temporary folder (input and output) and print its path
 # Environment: LATENTLIFT_BUILD (default build/), TMPDIR for the temporary folder (~0.5 GB).
 set -euo pipefail
+case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${LATENTLIFT_BUILD:-"$here/build"}
 threads=$(nproc)

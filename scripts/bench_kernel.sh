@@ -8,6 +8,7 @@
 # Usage: scripts/bench_kernel.sh [--instructions] [build-dir] [extra Google Benchmark options...]
 #        (default build dir: build-bench; e.g. --benchmark_min_time=2)
 set -euo pipefail
+case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
 instructions=0
 if [ "${1:-}" = "--instructions" ]; then instructions=1; shift; fi

@@ -4,6 +4,7 @@
 # show where the output is and how to look at one column.
 # Usage: scripts/demo.sh            (output: out/demo_analysis.nc; LATENTLIFT_BUILD overrides build/)
 set -euo pipefail
+case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${LATENTLIFT_BUILD:-"$here/build"}
 input="$here/sample_grids/vessaline_coast_lcc.nc"

@@ -5,9 +5,9 @@ reanalysis download (time, level, latitude, longitude; latitude 90 -> -90; level
 ascending). Synthetic air masses (tropics moist and latently unstable, polar air stable,
 planetary waves so that columns differ); not for checking values.
 
-Usage: /usr/bin/python3 scripts/make_bench_grid.py OUTPUT.nc [--deflate]
+Usage: /usr/bin/python3 scripts/make_bench_grid.py OUTPUT.nc [--deflate] [--resolution DEG] [--steps N]
 """
-import sys
+import argparse
 
 import numpy as np
 import netCDF4
@@ -47,20 +47,30 @@ def band_state(lat, lon):
 
 
 def main():
-    path = sys.argv[1]
-    deflate = "--deflate" in sys.argv[2:]
-    lat = np.linspace(90.0, -90.0, 721)
-    lon = np.arange(1440) * 0.25
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0],
+                                     formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("output", help="NetCDF file to write (about 460 MB uncompressed)")
+    parser.add_argument("--deflate", action="store_true", help="deflate the fields, chunked by level")
+    parser.add_argument("--resolution", type=float, default=0.25,
+                        help="grid spacing in degrees (default 0.25; 0.5 gives 720 x 361 columns)")
+    parser.add_argument("--steps", type=int, default=1,
+                        help="time steps, 6 h apart (default 1; later steps shift the waves eastward)")
+    args = parser.parse_args()
+    path, deflate = args.output, args.deflate
+    n_lat = int(round(180.0 / args.resolution)) + 1
+    n_lon = int(round(360.0 / args.resolution))
+    lat = np.linspace(90.0, -90.0, n_lat)
+    lon = np.arange(n_lon) * args.resolution
     ds = netCDF4.Dataset(path, "w", format="NETCDF4")
     ds.Conventions = "CF-1.8"
     ds.title = "latentlift benchmark input (synthetic, global 0.25 degree, 37 levels)"
-    ds.createDimension("time", 1)
+    ds.createDimension("time", args.steps)
     ds.createDimension("level", len(LEVELS_HPA))
     ds.createDimension("latitude", len(lat))
     ds.createDimension("longitude", len(lon))
     v = ds.createVariable("time", "i4", ("time",))
     v.standard_name, v.units, v.calendar = "time", "hours since 2031-01-01 00:00:00", "gregorian"
-    v[:] = [0]
+    v[:] = np.arange(args.steps) * 6
     v = ds.createVariable("level", "i4", ("level",))
     v.long_name, v.units = "pressure_level", "millibars"
     v[:] = LEVELS_HPA.astype(np.int32)
@@ -71,19 +81,20 @@ def main():
     v.standard_name, v.units = "longitude", "degrees_east"
     v[:] = lon
     dims = ("time", "level", "latitude", "longitude")
-    kw = dict(zlib=True, complevel=1, shuffle=True, chunksizes=(1, 1, 721, 1440)) if deflate else dict(contiguous=True)
+    kw = dict(zlib=True, complevel=1, shuffle=True, chunksizes=(1, 1, n_lat, n_lon)) if deflate else dict(contiguous=True)
     vt = ds.createVariable("t", "f4", dims, **kw)
     vt.standard_name, vt.units, vt.long_name = "air_temperature", "K", "Temperature"
     vq = ds.createVariable("q", "f4", dims, **kw)
     vq.standard_name, vq.units, vq.long_name = "specific_humidity", "kg kg**-1", "Specific humidity"
     vz = ds.createVariable("z", "f4", dims, **kw)
     vz.standard_name, vz.units, vz.long_name = "geopotential", "m**2 s**-2", "Geopotential"
-    for r0 in range(0, len(lat), BAND):
-        r1 = min(r0 + BAND, len(lat))
-        t, q, z = band_state(lat[r0:r1], lon)
-        vt[0, :, r0:r1, :] = t
-        vq[0, :, r0:r1, :] = q
-        vz[0, :, r0:r1, :] = z
+    for step in range(args.steps):
+        for r0 in range(0, len(lat), BAND):
+            r1 = min(r0 + BAND, len(lat))
+            t, q, z = band_state(lat[r0:r1], lon - 7.5 * step)
+            vt[step, :, r0:r1, :] = t
+            vq[step, :, r0:r1, :] = q
+            vz[step, :, r0:r1, :] = z
     ds.close()
 
 

@@ -15,8 +15,8 @@ The fields are smooth analytic air masses made hydrostatically consistent (hypso
 equation with virtual temperature); humidity comes from a relative-humidity profile through
 Bolton's (1980) saturation vapour pressure. The output is deterministic.
 """
+import argparse
 import os
-import sys
 
 import numpy as np
 import netCDF4
@@ -363,7 +363,11 @@ def write_global(path):
 
 def main():
     here = os.path.dirname(os.path.abspath(__file__))
-    out = sys.argv[1] if len(sys.argv) > 1 else os.path.join(here, "..", "sample_grids")
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0],
+                                     formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("output_dir", nargs="?", default=os.path.join(here, "..", "sample_grids"),
+                        help="folder to write the two sample grids to (default: sample_grids/)")
+    out = parser.parse_args().output_dir
     os.makedirs(out, exist_ok=True)
     for name, writer in (("vessaline_coast_lcc.nc", write_regional), ("aurel_global_5deg.nc", write_global)):
         path = os.path.join(out, name)

@@ -2,6 +2,7 @@
 # Install every dependency from Debian packages (when missing) and build latentlift.
 # Usage: scripts/setup.sh [build-dir [target...]]   (default: build, every target)
 set -euo pipefail
+case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${1:-"$here/build"}
 shift $(( $# > 0 ? 1 : 0 ))

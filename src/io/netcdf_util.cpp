@@ -4,6 +4,7 @@
 #include <netcdf.h>
 #include <sys/statvfs.h>
 
+#include <atomic>
 #include <cctype>
 #include <cerrno>
 #include <cstring>
@@ -141,8 +142,25 @@ NcFile NcFile::create_netcdf4(const std::string& path) {
   return file;
 }
 
+namespace {
+
+std::atomic<bool> g_left_open{false};
+
+/// Close a dataset for good. When nc_close fails (a full disk while flushing), netCDF keeps the
+/// dataset and HDF5 its file (HDF5 1.10.8 cannot release a file whose flush failed, nc_abort
+/// included); the process then has to end without HDF5's exit handler (netcdf_files_left_open).
+int close_for_good(int id) {
+  const int status = nc_close(id);
+  if (status != NC_NOERR && nc_abort(id) != NC_NOERR) g_left_open = true;
+  return status;
+}
+
+}  // namespace
+
+bool netcdf_files_left_open() { return g_left_open; }
+
 NcFile::~NcFile() {
-  if (id_ >= 0) nc_close(id_);
+  if (id_ >= 0) close_for_good(id_);
 }
 
 NcFile::NcFile(NcFile&& other) noexcept
@@ -150,7 +168,7 @@ NcFile::NcFile(NcFile&& other) noexcept
 
 NcFile& NcFile::operator=(NcFile&& other) noexcept {
   if (this != &other) {
-    if (id_ >= 0) nc_close(id_);
+    if (id_ >= 0) close_for_good(id_);
     id_ = std::exchange(other.id_, -1);
     path_ = std::move(other.path_);
   }
@@ -160,7 +178,7 @@ NcFile& NcFile::operator=(NcFile&& other) noexcept {
 void NcFile::close() {
   if (id_ < 0) return;
   int id = std::exchange(id_, -1);
-  check(nc_close(id), path_, "closing");
+  check(close_for_good(id), path_, "closing");
 }
 
 std::string var_name(int ncid, int varid) {

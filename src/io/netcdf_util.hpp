@@ -48,6 +48,10 @@ class NcFile {
   std::string path_;
 };
 
+/// True when a dataset could not be closed (its flush failed: disk full). HDF5's exit handler
+/// would crash on it, so the executable then ends with _exit after flushing stdio (src/cli/main.cpp).
+bool netcdf_files_left_open();
+
 /// A variable's dimension ids, names and lengths.
 struct VarShape {
   std::vector<int> dimids;

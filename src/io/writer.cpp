@@ -405,12 +405,7 @@ OutputWriter::OutputWriter(const std::string& target, const InputDataset& input,
   for (const std::string& p : input.paths())
     if (fs::exists(p, ec) && fs::exists(target, ec) && fs::equivalent(p, target, ec))
       throw UsageError(target + ": output would replace an input file");
-  if (fs::exists(target, ec) && !options.overwrite)
-    throw UsageError(target + ": exists; use --overwrite to replace it");
-  fs::path parent = fs::path(target).parent_path();
-  if (!parent.empty() && !fs::is_directory(parent, ec))
-    throw UsageError(target + ": output folder " + parent.string() + " does not exist");
-  impl.staged = std::make_unique<d::TemporaryOutput>(target);
+  impl.staged = std::make_unique<d::TemporaryOutput>(target, options.overwrite);  // checks the target
   impl.temporary = impl.staged->path();
 
   const GridDescription& grid = input.grid();

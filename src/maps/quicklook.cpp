@@ -800,7 +800,7 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   }
   for (std::size_t k = 0; k < notes.size(); ++k) canvas.text(kPad, notes_y + k * small_h + small_ascent, notes[k], kSmallPx, kSoftInk);
 
-  io::detail::TemporaryOutput staged(png_path);
+  io::detail::TemporaryOutput staged(png_path, options.overwrite);
   write_png(staged.path(), canvas.pixels());
   staged.commit();
 

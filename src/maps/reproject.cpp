@@ -142,7 +142,7 @@ void write_cog_layer(const NcFile& in, const VarInfo& field, bool classes, const
     layer.bands.push_back(std::move(band));
     layer.band_times.push_back(t < times.size() ? iso_time(times[t], time_units, calendar) : "");
   }
-  io::detail::TemporaryOutput staged(output);  // removed unless committed
+  io::detail::TemporaryOutput staged(output, options.overwrite);  // removed unless committed
   write_cog(staged.path(), layer);
   staged.commit();
 }
@@ -151,8 +151,7 @@ void write_cog_layer(const NcFile& in, const VarInfo& field, bool classes, const
 
 ReprojectSummary reproject_file(const std::string& input, const std::string& output, const ReprojectOptions& options) {
   namespace fs = std::filesystem;
-  if (fs::exists(output) && !options.overwrite)
-    throw UsageError(output + " exists; use --overwrite to replace it");
+  io::detail::TemporaryOutput::check_target(output, options.overwrite);  // before any work
   geo::Crs target_crs = geo::Crs::from_user_text(options.crs);
   if (target_crs.is_rotated_pole()) throw UsageError("--crs must be a geographic or projected CRS, not a rotated pole");
   if (std::fabs(target_crs.metres_per_unit() - 1.0) > 1e-12)
@@ -214,7 +213,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
     return summary;
   }
 
-  io::detail::TemporaryOutput staged(output);  // removed unless committed
+  io::detail::TemporaryOutput staged(output, options.overwrite);  // removed unless committed
   {
     io::detail::NcFile out = io::detail::NcFile::create_netcdf4(staged.path());
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);

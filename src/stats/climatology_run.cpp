@@ -19,6 +19,7 @@
 #include "latentlift/errors.hpp"
 #include "latentlift/parallel.hpp"
 #include "latentlift/pipeline.hpp"
+#include "io/temporary_output.hpp"
 #include "stats/stats_netcdf.hpp"
 
 namespace latentlift::climatology {
@@ -218,9 +219,9 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
   failure = comm::capture([&] {
     if (options.inputs.empty()) throw UsageError("climatology: no input files");
     if (options.output.empty()) throw UsageError("climatology: -o STATS.nc is required");
-    const bool exists = fs::exists(options.output);
-    if (exists && !options.update)
-      throw UsageError(options.output + ": exists; add --update to add the inputs to it, or remove it");
+    io::detail::TemporaryOutput::check_target(options.output, options.update, detail::kReplaceHint);
+    std::error_code ec;
+    const bool exists = fs::exists(options.output, ec);
     if (!exists && options.update)
       throw UsageError(options.output + ": --update needs an existing climatology file");
     meta.group_by = options.group_by;
@@ -396,7 +397,7 @@ ClimatologySummary run_climatology(const ClimatologyOptions& options) {
       model_template = std::make_unique<InputDataset>(sources.front().model_paths, config.aliases, config.conventions);
       template_path = model_template->grid_netcdf_path();
     }
-    detail::write_stats(options.output, meta, acc, template_path);
+    detail::write_stats(options.output, meta, acc, template_path, options.update);
     summary.time_steps_total = static_cast<long>(meta.valid_times.size());
   }
   summary.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();

@@ -715,9 +715,9 @@ Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata&
 }
 
 void write_stats(const std::string& path, const StatsMetadata& meta, const Accumulator& acc,
-                 const std::string& template_path) {
+                 const std::string& template_path, bool replace) {
   namespace fs = std::filesystem;
-  io::detail::TemporaryOutput staged(path);  // removed unless committed
+  io::detail::TemporaryOutput staged(path, replace, kReplaceHint);  // removed unless committed
   const std::string& tmp = staged.path();
 
   const Grid& grid = meta.grid;

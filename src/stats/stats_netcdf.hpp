@@ -13,6 +13,9 @@
 
 namespace latentlift::climatology::detail {
 
+/// How an existing STATS.nc is replaced (the end of the "exists" message).
+inline const char* const kReplaceHint = "add --update to add the inputs to it, or remove it";
+
 /// The horizontal grid (and optional level dimension) statistics are kept on.
 struct Grid {
   std::vector<std::string> dims;    // horizontal dimensions, slowest first
@@ -83,9 +86,11 @@ bool is_stats_file(const std::string& path);
 StatsMetadata read_stats_metadata(const std::string& path);
 /// Its accumulator state (bins must equal field_specs(): InputError otherwise).
 Accumulator read_stats_accumulator(const std::string& path, const StatsMetadata& meta);
-/// Write STATS.nc to a temporary file beside `path` and rename it into place. Grid coordinates,
-/// grid mapping and the level coordinate are copied from `template_path` (an input or the old STATS.nc).
+/// Write STATS.nc to a temporary file beside `path` and put it into place (replacing an existing
+/// file only when `replace`, i.e. --update; otherwise a file that appeared meanwhile is a
+/// UsageError). Grid coordinates, grid mapping and the level coordinate are copied from
+/// `template_path` (an input or the old STATS.nc).
 void write_stats(const std::string& path, const StatsMetadata& meta, const Accumulator& acc,
-                 const std::string& template_path);
+                 const std::string& template_path, bool replace);
 
 }  // namespace latentlift::climatology::detail

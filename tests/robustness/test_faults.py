@@ -1,0 +1,231 @@
+"""Faults of the machine and of the surroundings, for every writer (analyze, climatology,
+reproject, quicklook): a full disk, two runs writing one output, signals in the middle of a
+run (with and without --overwrite, and SIGHUP under nohup), a dangling symbolic link and a
+directory as the output. The rules checked are the README's "Outputs" section: an output
+appears complete or not at all, nothing temporary is left, exit 2 for the user's mistakes
+and 1 for the machine's."""
+import os
+import shutil
+import signal
+import subprocess
+import time
+
+import pytest
+
+SOURCE_DIR = os.environ.get("LATENTLIFT_SOURCE_DIR", os.path.join(os.path.dirname(__file__), "..", ".."))
+BINARY = os.environ.get("LATENTLIFT_BINARY", os.path.join(SOURCE_DIR, "build", "latentlift"))
+COAST = os.path.join(SOURCE_DIR, "sample_grids", "vessaline_coast_lcc.nc")
+TIMEOUT_S = 300
+WRITERS = ("analyze", "climatology", "reproject", "quicklook")
+
+
+def run(args, **kwargs):
+    return subprocess.run([BINARY] + args, capture_output=True, text=True, timeout=TIMEOUT_S,
+                          stdin=subprocess.DEVNULL, **kwargs)
+
+
+@pytest.fixture(scope="module")
+def analysis(tmp_path_factory):
+    """An analyze output of the Vessaline Coast grid (input of reproject and quicklook)."""
+    path = str(tmp_path_factory.mktemp("analysis") / "coast.nc")
+    done = run(["analyze", COAST, "-o", path, "--quiet"])
+    assert done.returncode == 0, done.stderr
+    return path
+
+
+def writer_args(writer, target, analysis, overwrite=False):
+    """The command line of one writer writing target."""
+    if writer == "analyze":
+        args = ["analyze", COAST, "-o", target, "--quiet", "--level-fields"]
+    elif writer == "climatology":
+        args = ["climatology", COAST, "-o", target, "--quiet"]
+    elif writer == "reproject":
+        args = ["reproject", analysis, "-o", target, "--resolution", "0.05", "--quiet"]
+    else:
+        args = ["quicklook", analysis, "--field", "mu_cape", "-o", target, "--quiet"]
+    if overwrite:
+        args.append("--update" if writer == "climatology" else "--overwrite")
+    return args
+
+
+def leftovers(folder, keep=()):
+    """Files in folder other than keep (temporary files included)."""
+    return sorted(f for f in os.listdir(folder) if f not in keep)
+
+
+def side_files(writer, name):
+    return [name + s for s in (".pgw", ".prj", ".png.aux.xml")] if writer == "quicklook" else []
+
+
+def target_name(writer):
+    return "map.png" if writer == "quicklook" else "out.nc"
+
+
+# ----------------------------------------------------------------------------- disk full
+@pytest.fixture
+def small_disk(tmp_path):
+    """A 96 KiB tmpfs (too small for any of the outputs); needs root."""
+    if os.geteuid() != 0:
+        pytest.skip("disk-full tests mount a small tmpfs and need root (CI runs as root)")
+    mount_point = tmp_path / "small_disk"
+    mount_point.mkdir()
+    mounted = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=96k", "tmpfs", str(mount_point)],
+                             capture_output=True, text=True)
+    if mounted.returncode != 0:
+        pytest.skip("cannot mount a tmpfs here: " + mounted.stderr.strip())
+    yield str(mount_point)
+    subprocess.run(["umount", "-l", str(mount_point)], check=False)
+
+
+@pytest.mark.parametrize("writer", WRITERS)
+def test_disk_full_is_exit_1_without_crash_or_leftovers(writer, analysis, small_disk):
+    target = os.path.join(small_disk, target_name(writer))
+    if writer == "reproject":  # a fine grid, so that the output does not fit
+        args = ["reproject", analysis, "-o", target, "--resolution", "0.02", "--quiet"]
+    else:
+        args = writer_args(writer, target, analysis)
+    done = run(args)
+    assert done.returncode == 1, f"exit {done.returncode}: {done.stderr[-2000:]}"
+    assert leftovers(small_disk) == []
+    lines = [line for line in done.stderr.splitlines() if line.strip()]
+    assert len(lines) == 1, done.stderr[-2000:]
+    assert target in lines[0] and ".tmp-" not in lines[0]
+
+
+# ----------------------------------------------------------------------------- runs that overlap
+def start_when_staged(args, folder, name):
+    """Start a writer and wait until its temporary file exists (the run is past its start checks)."""
+    process = subprocess.Popen([BINARY] + args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                               stdin=subprocess.DEVNULL)
+    temporary = os.path.join(folder, f"{name}.tmp-{process.pid}")
+    deadline = time.monotonic() + 60
+    while not os.path.exists(temporary) and process.poll() is None and time.monotonic() < deadline:
+        time.sleep(0.005)
+    return process, temporary
+
+
+def slow_analyze(target, overwrite=False):
+    """An analyze run that takes a while (level fields, one thread)."""
+    args = ["analyze", COAST, "-o", target, "--quiet", "--level-fields", "--threads", "1"]
+    return args + (["--overwrite"] if overwrite else [])
+
+
+def test_two_concurrent_runs_without_overwrite_exactly_one_wins(tmp_path):
+    target = str(tmp_path / "out.nc")
+    first, first_tmp = start_when_staged(slow_analyze(target), str(tmp_path), "out.nc")
+    second, second_tmp = start_when_staged(slow_analyze(target), str(tmp_path), "out.nc")
+    assert first.poll() is None and second.poll() is None, "a run ended before both had started"
+    results = [p.communicate(timeout=TIMEOUT_S) + (p.returncode,) for p in (first, second)]
+    codes = sorted(r[2] for r in results)
+    assert codes == [0, 2], results
+    loser = next(r for r in results if r[2] == 2)
+    assert "appeared while this run was writing it" in loser[1] and target in loser[1]
+    assert leftovers(str(tmp_path)) == ["out.nc"]
+    check = run(["quicklook", target, "--field", "mu_cape", "-o", str(tmp_path / "check.png"), "--quiet"])
+    assert check.returncode == 0, check.stderr  # the winner's file is complete
+
+
+def test_two_concurrent_runs_with_overwrite_both_succeed(tmp_path):
+    target = str(tmp_path / "out.nc")
+    first, _ = start_when_staged(slow_analyze(target, True), str(tmp_path), "out.nc")
+    second, _ = start_when_staged(slow_analyze(target, True), str(tmp_path), "out.nc")
+    for p in (first, second):
+        _, err = p.communicate(timeout=TIMEOUT_S)
+        assert p.returncode == 0, err
+    assert leftovers(str(tmp_path)) == ["out.nc"]
+
+
+# ----------------------------------------------------------------------------- signals
+@pytest.mark.parametrize("overwrite", [False, True], ids=["new", "overwrite"])
+@pytest.mark.parametrize("signal_number", [signal.SIGINT, signal.SIGTERM, signal.SIGHUP], ids=["INT", "TERM", "HUP"])
+def test_signal_mid_run_removes_the_temporary_and_keeps_the_old_output(tmp_path, signal_number, overwrite):
+    target = str(tmp_path / "out.nc")
+    old = b"the output of an earlier run"
+    if overwrite:
+        with open(target, "wb") as f:
+            f.write(old)
+    process, temporary = start_when_staged(slow_analyze(target, overwrite), str(tmp_path), "out.nc")
+    assert process.poll() is None, "the run ended before the signal"
+    process.send_signal(signal_number)
+    process.communicate(timeout=TIMEOUT_S)
+    assert process.returncode == -signal_number  # the signal is passed on: the caller sees it
+    assert not os.path.exists(temporary)
+    if overwrite:
+        with open(target, "rb") as f:
+            assert f.read() == old
+        assert leftovers(str(tmp_path)) == ["out.nc"]
+    else:
+        assert leftovers(str(tmp_path)) == []
+
+
+def test_sighup_under_nohup_is_ignored_and_the_run_completes(tmp_path):
+    target = str(tmp_path / "out.nc")
+    process = subprocess.Popen(["nohup", BINARY] + slow_analyze(target), stdout=subprocess.PIPE,
+                               stderr=subprocess.PIPE, text=True, stdin=subprocess.DEVNULL, cwd=tmp_path)
+    deadline = time.monotonic() + 60
+    staged = lambda: [f for f in os.listdir(tmp_path) if f.startswith("out.nc.tmp-")]
+    while not staged() and process.poll() is None and time.monotonic() < deadline:
+        time.sleep(0.005)
+    assert process.poll() is None, "the run ended before the signal"
+    process.send_signal(signal.SIGHUP)  # nohup execs latentlift: same process
+    _, err = process.communicate(timeout=TIMEOUT_S)
+    assert process.returncode == 0, err
+    assert sorted(f for f in os.listdir(tmp_path) if f != "nohup.out") == ["out.nc"]
+
+
+# ----------------------------------------------------------------------------- targets
+@pytest.mark.parametrize("writer", WRITERS)
+def test_dangling_symlink_is_an_existing_target(writer, analysis, tmp_path):
+    target = str(tmp_path / target_name(writer))
+    os.symlink(str(tmp_path / "nowhere"), target)
+    done = run(writer_args(writer, target, analysis))
+    assert done.returncode == 2, done.stderr
+    assert "exists" in done.stderr and target in done.stderr
+    assert os.path.islink(target) and not os.path.exists(str(tmp_path / "nowhere"))
+    assert leftovers(str(tmp_path)) == [os.path.basename(target)]
+
+
+@pytest.mark.parametrize("writer", ["analyze", "reproject", "quicklook"])
+def test_dangling_symlink_with_overwrite_is_replaced_by_the_output(writer, analysis, tmp_path):
+    target = str(tmp_path / target_name(writer))
+    os.symlink(str(tmp_path / "nowhere"), target)
+    done = run(writer_args(writer, target, analysis, overwrite=True))
+    assert done.returncode == 0, done.stderr
+    assert os.path.isfile(target) and not os.path.islink(target)
+    assert not os.path.exists(str(tmp_path / "nowhere"))
+
+
+@pytest.mark.parametrize("overwrite", [False, True], ids=["new", "overwrite"])
+@pytest.mark.parametrize("writer", WRITERS)
+def test_directory_as_target_is_exit_2_at_start(writer, overwrite, analysis, tmp_path):
+    target = tmp_path / "folder.out"
+    target.mkdir()
+    started = time.monotonic()
+    done = run(writer_args(writer, str(target), analysis, overwrite=overwrite and writer != "climatology"))
+    assert done.returncode == 2, done.stderr
+    assert "is a directory" in done.stderr and str(target) in done.stderr
+    assert leftovers(str(tmp_path)) == ["folder.out"] and os.listdir(target) == []
+    assert time.monotonic() - started < 20
+
+
+@pytest.mark.parametrize("writer", WRITERS)
+def test_existing_target_is_kept_without_overwrite(writer, analysis, tmp_path):
+    target = str(tmp_path / target_name(writer))
+    with open(target, "wb") as f:
+        f.write(b"keep me")
+    done = run(writer_args(writer, target, analysis))
+    assert done.returncode == 2, done.stderr
+    with open(target, "rb") as f:
+        assert f.read() == b"keep me"
+    assert leftovers(str(tmp_path)) == [os.path.basename(target)]
+
+
+def test_quicklook_overwrite_replaces_the_map_and_its_side_files(analysis, tmp_path):
+    target = str(tmp_path / "map.png")
+    first = run(writer_args("quicklook", target, analysis))
+    assert first.returncode == 0, first.stderr
+    again = run(writer_args("quicklook", target, analysis))
+    assert again.returncode == 2 and "--overwrite" in again.stderr
+    replaced = run(writer_args("quicklook", target, analysis, overwrite=True))
+    assert replaced.returncode == 0, replaced.stderr
+    assert leftovers(str(tmp_path)) == sorted(["map.png", "map.pgw", "map.prj", "map.png.aux.xml"])
