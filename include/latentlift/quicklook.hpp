@@ -16,7 +16,7 @@ struct QuicklookOptions {
   std::string group;                         // climatology group: label (Jan, DJF, 12UTC) or index; "" = first
   std::size_t level_index = 0;               // index along a pressure-level dimension (per-level fields)
   std::optional<std::array<double, 2>> range;  // colour bar from/to in field units (default: 2nd-98th percentile, rounded)
-  bool overwrite = true;
+  bool overwrite = false;                    // replace an existing PNG, like --overwrite
 };
 
 struct QuicklookSummary {

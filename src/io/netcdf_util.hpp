@@ -30,8 +30,9 @@ class NcFile {
   /// Open read-only; a file that is not NetCDF or is damaged is an InputError. shown_as: the
   /// name used in messages and path() (e.g. the GRIB files a staged file was made from).
   static NcFile open_read(const std::string& path, const std::string& shown_as = "");
-  /// Create a NetCDF-4 file (clobbering path).
-  static NcFile create_netcdf4(const std::string& path);
+  /// Create a NetCDF-4 file (clobbering path). Messages name it reported_as when given (the
+  /// user's target rather than the temporary file written for it).
+  static NcFile create_netcdf4(const std::string& path, const std::string& reported_as = "");
   ~NcFile();
   NcFile(NcFile&& other) noexcept;
   NcFile& operator=(NcFile&& other) noexcept;

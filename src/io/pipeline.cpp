@@ -387,12 +387,16 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
   RunSummary summary;
   {
     Runner runner(input, options);
+    // Maps written whole are double-buffered (one is written while the next step is analysed);
+    // maps written band by band are complete on disk when run_step returns, so one buffer serves
+    // every step and the peak memory does not depend on the number of steps.
     FieldSet fields[2];
     std::future<void> writes[2];
     const std::size_t n = writer.n_steps();
+    const std::size_t buffers = writer.writes_by_block() ? 1 : 2;
     try {
       for (std::size_t s = 0; s < n; ++s) {
-        FieldSet& current = fields[s % 2];
+        FieldSet& current = fields[s % buffers];
         timed_wait(writes[s % 2], summary.output_wait_seconds);
         auto level_sink = [&writer, s](const LevelFieldBlock& block) { writer.write_level_block(s, block); };
         const std::size_t next = s + 1 < n ? writer.input_step(s + 1) : Runner::kNoStep;

@@ -190,7 +190,7 @@ void OutputWriter::Impl::define(const InputDataset& in) {
   const GridDescription& grid = src.grid;
   const NcFile& grid_file = src.files[src.grid_file];
   const int out = file.id();
-  const std::string& path = temporary;
+  const std::string& path = target;  // messages name the user's file, never the temporary one
 
   // Dimensions: outer (time subset), pressure (with level fields), horizontal.
   std::vector<int> outer_dims, horizontal_dims;
@@ -320,6 +320,12 @@ void OutputWriter::Impl::define(const InputDataset& in) {
     d::check(nc_def_var(out, info.name, is_byte ? NC_BYTE : NC_FLOAT, static_cast<int>(dims.size()), dims.data(), &var),
              path, std::string("defining ") + info.name);
     d::check(nc_def_var_chunking(out, var, NC_CHUNKED, chunks.data()), path, std::string("chunking ") + info.name);
+    // Every chunk is written whole, once: a cache of about one chunk per field suffices. The
+    // library default (up to 16 MiB per variable) keeps each step's chunks of every field, so
+    // memory would grow with the number of time steps.
+    std::size_t chunk_bytes = is_byte ? 1 : sizeof(float);
+    for (std::size_t c : chunks) chunk_bytes *= c;
+    d::check(nc_set_var_chunk_cache(out, var, 2 * chunk_bytes, 11, 1.0f), path, std::string("chunk cache of ") + info.name);
     if (options.deflate_level > 0)
       d::check(nc_def_var_deflate(out, var, 1, 1, options.deflate_level), path, std::string("compressing ") + info.name);
     if (is_byte) {
@@ -422,7 +428,7 @@ OutputWriter::OutputWriter(const std::string& target, const InputDataset& input,
   if (time_outer >= 0) impl.outer[time_outer].length = impl.time_indices.size();
 
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
-  impl.file = NcFile::create_netcdf4(impl.temporary);
+  impl.file = NcFile::create_netcdf4(impl.temporary, impl.target);
   try {
     impl.define(input);
   } catch (...) {
@@ -494,7 +500,7 @@ void OutputWriter::write_fields_block(std::size_t out_step, ColumnRange range, c
     impl.scratch.assign(values.begin() + range.begin, values.begin() + range.begin + range.count);
     for (float& v : impl.scratch)
       if (std::isnan(v)) v = NC_FILL_FLOAT;
-    d::check(nc_put_vara_float(out, it->second, start.data(), count.data(), impl.scratch.data()), impl.temporary,
+    d::check(nc_put_vara_float(out, it->second, start.data(), count.data(), impl.scratch.data()), impl.target,
              "writing " + name);
   }
   for (const auto& [name, values] : fields.byte) {
@@ -503,10 +509,10 @@ void OutputWriter::write_fields_block(std::size_t out_step, ColumnRange range, c
     if (values.size() != grid.n_columns) throw Error("write_fields: " + name + " has the wrong size");
     d::check(nc_put_vara_schar(out, it->second, start.data(), count.data(),
                                reinterpret_cast<const signed char*>(values.data() + range.begin)),
-             impl.temporary, "writing " + name);
+             impl.target, "writing " + name);
   }  // Push the finished chunks through compression now (on the I/O thread, while the analysis
   // runs) rather than at close.
-  d::check(nc_sync(out), impl.temporary, "flushing");
+  d::check(nc_sync(out), impl.target, "flushing");
 }
 
 void OutputWriter::write_level_block(std::size_t out_step, const LevelFieldBlock& block) {
@@ -539,7 +545,7 @@ void OutputWriter::write_level_block(std::size_t out_step, const LevelFieldBlock
     impl.scratch.assign(values.begin(), values.end());
     for (float& v : impl.scratch)
       if (std::isnan(v)) v = NC_FILL_FLOAT;
-    d::check(nc_put_vara_float(out, it->second, start.data(), count.data(), impl.scratch.data()), impl.temporary,
+    d::check(nc_put_vara_float(out, it->second, start.data(), count.data(), impl.scratch.data()), impl.target,
              "writing " + name);
   }
   for (const auto& [name, values] : block.byte) {
@@ -547,9 +553,9 @@ void OutputWriter::write_level_block(std::size_t out_step, const LevelFieldBlock
     if (it == impl.field_var.end()) throw Error("write_level_block: unknown output field " + name);
     d::check(nc_put_vara_schar(out, it->second, start.data(), count.data(),
                                reinterpret_cast<const signed char*>(values.data())),
-             impl.temporary, "writing " + name);
+             impl.target, "writing " + name);
   }
-  d::check(nc_sync(out), impl.temporary, "flushing");
+  d::check(nc_sync(out), impl.target, "flushing");
 }
 
 
@@ -558,10 +564,10 @@ void OutputWriter::commit(const QcCounts& qc) {
   {
     std::lock_guard<std::mutex> lock(d::netcdf_mutex());
     const int out = impl.file.id();
-    d::check(nc_redef(out), impl.temporary, "entering define mode");
+    d::check(nc_redef(out), impl.target, "entering define mode");
     auto put_count = [&](const char* name, long value) {
       long long v = value;
-      d::check(nc_put_att_longlong(out, NC_GLOBAL, name, NC_INT64, 1, &v), impl.temporary, name);
+      d::check(nc_put_att_longlong(out, NC_GLOBAL, name, NC_INT64, 1, &v), impl.target, name);
     };
     put_count("qc_columns_analysed", qc.columns_analysed);
     put_count("qc_columns_skipped", qc.columns_skipped);
@@ -569,7 +575,7 @@ void OutputWriter::commit(const QcCounts& qc) {
     put_count("qc_dew_point_corrected", qc.dew_point_corrected);
     put_count("qc_temperature_rejected", qc.temperature_rejected);
     put_count("qc_surface_pressure_rejected", qc.surface_pressure_rejected);
-    d::check(nc_enddef(out), impl.temporary, "leaving define mode");
+    d::check(nc_enddef(out), impl.target, "leaving define mode");
     impl.file.close();
   }
   impl.staged->commit();

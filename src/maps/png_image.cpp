@@ -4,8 +4,10 @@
 
 #include <png.h>
 
+#include <cerrno>
 #include <csetjmp>
 #include <cstdio>
+#include <cstring>
 #include <memory>
 
 #include "latentlift/errors.hpp"
@@ -99,16 +101,21 @@ bool read_rows(png_structp png, png_infop info, png_bytep* rows) {
 
 }  // namespace
 
-void write_png(const std::string& path, const RgbImage& image) {
+void write_png(const std::string& path, const RgbImage& image, const std::string& reported_as) {
+  const std::string& name = reported_as.empty() ? path : reported_as;
   FilePtr file(std::fopen(path.c_str(), "wb"));
-  if (!file) throw Error(path + ": cannot open for writing");
+  if (!file) throw Error(name + ": cannot open for writing (" + std::strerror(errno) + ")");
   PngWriter writer;
   if (!writer.png || !writer.info) throw Error("libpng: cannot create a writer");
   std::vector<png_bytep> rows(static_cast<std::size_t>(image.height));
   for (int y = 0; y < image.height; ++y)
     rows[y] = const_cast<png_bytep>(&image.pixels[static_cast<std::size_t>(y) * image.width * 3]);
-  if (!write_rows(writer.png, writer.info, file.get(), &image, rows.data())) throw Error(path + ": libpng cannot write");
-  if (std::fflush(file.get()) != 0) throw Error(path + ": write failed");
+  errno = 0;
+  if (!write_rows(writer.png, writer.info, file.get(), &image, rows.data()))
+    throw Error(name + ": cannot write the PNG" + (errno ? std::string(" (") + std::strerror(errno) + ")" : ""));
+  // A full disk often shows only when the buffered rest is written: check the flush and the close.
+  if (std::fflush(file.get()) != 0) throw Error(name + ": cannot write the PNG (" + std::strerror(errno) + ")");
+  if (std::fclose(file.release()) != 0) throw Error(name + ": cannot write the PNG (" + std::strerror(errno) + ")");
 }
 
 RgbImage read_png(const std::string& path) {

@@ -28,8 +28,9 @@ struct RgbImage {
   void frame(int x, int y, int w, int h, Rgb c);  // 1-pixel outline
 };
 
-/// Writes an 8-bit RGB PNG; Error on failure.
-void write_png(const std::string& path, const RgbImage& image);
+/// Writes an 8-bit RGB PNG; Error on failure, naming reported_as when given (the user's target
+/// when path is its temporary file).
+void write_png(const std::string& path, const RgbImage& image, const std::string& reported_as = "");
 /// Reads any PNG as 8-bit RGB (alpha dropped, palettes and grey expanded); Error on failure.
 RgbImage read_png(const std::string& path);
 

@@ -6,7 +6,9 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cerrno>
 #include <cstdio>
+#include <cstring>
 #include <filesystem>
 #include <sstream>
 
@@ -14,6 +16,7 @@
 #include "maps/cf_time_text.hpp"
 #include "maps/colour_scale.hpp"
 #include "io/netcdf_file.hpp"
+#include "io/temporary_output.hpp"
 #include "maps/png_image.hpp"
 #include "geo/proj_handles.hpp"
 #include "maps/resample.hpp"
@@ -383,7 +386,7 @@ std::string closest_fields(const io::detail::NcFile& file, const std::string& na
 
 QuicklookSummary quicklook_file(const std::string& input, const std::string& png_path, const QuicklookOptions& options) {
   namespace fs = std::filesystem;
-  if (!options.overwrite && fs::exists(png_path)) throw UsageError(png_path + " exists; use --overwrite to replace it");
+  io::detail::TemporaryOutput::check_target(png_path, options.overwrite);  // before any work
   NcFile file = NcFile::open_read(input);
   auto var = find_variable(file, options.field);
   if (!var) throw InputError(input, options.field, "a field of this name; the file has " + closest_fields(file, options.field));
@@ -801,7 +804,7 @@ QuicklookSummary quicklook_file(const std::string& input, const std::string& png
   for (std::size_t k = 0; k < notes.size(); ++k) canvas.text(kPad, notes_y + k * small_h + small_ascent, notes[k], kSmallPx, kSoftInk);
 
   io::detail::TemporaryOutput staged(png_path, options.overwrite);
-  write_png(staged.path(), canvas.pixels());
+  write_png(staged.path(), canvas.pixels(), png_path);
   staged.commit();
 
   summary.width = width;

@@ -215,7 +215,7 @@ ReprojectSummary reproject_file(const std::string& input, const std::string& out
 
   io::detail::TemporaryOutput staged(output, options.overwrite);  // removed unless committed
   {
-    io::detail::NcFile out = io::detail::NcFile::create_netcdf4(staged.path());
+    io::detail::NcFile out = io::detail::NcFile::create_netcdf4(staged.path(), output);
     copy_attributes(in, NC_GLOBAL, out, NC_GLOBAL, false);
     io::detail::write_text(out, NC_GLOBAL, "Conventions", "CF-1.8");
     std::string method_text = options.method == ResampleMethod::nearest ? "nearest" : options.method == ResampleMethod::bilinear ? "bilinear" : "automatic";

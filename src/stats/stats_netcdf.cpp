@@ -718,12 +718,12 @@ void write_stats(const std::string& path, const StatsMetadata& meta, const Accum
                  const std::string& template_path, bool replace) {
   namespace fs = std::filesystem;
   io::detail::TemporaryOutput staged(path, replace, kReplaceHint);  // removed unless committed
-  const std::string& tmp = staged.path();
+  const std::string& tmp = path;  // messages name the user's file, never the temporary one
 
   const Grid& grid = meta.grid;
   const int groups = acc.groups();
   const auto& specs = field_specs();
-  Nc out = Nc::create_netcdf4(tmp);
+  Nc out = Nc::create_netcdf4(staged.path(), path);
   Writer w{out.id(), tmp};
   const int nc = out.id();
 

@@ -403,6 +403,7 @@ def analysis_cases(corpus, analysis_paths):
     either, refuse = [0, 2], [2]
     for source in analysis_paths:
         base = Dataset.read(source)
+        base.attrs.pop("history", None)  # a time stamp: without it the same seed gives the same bytes
         corpus.add_dataset("analysis_clean", base.copy(), "analysis", [0])
         data = clean_bytes(base, "NETCDF4", scratch)
         for _ in range(20):

@@ -73,6 +73,12 @@ def small_disk(tmp_path):
                              capture_output=True, text=True)
     if mounted.returncode != 0:
         pytest.skip("cannot mount a tmpfs here: " + mounted.stderr.strip())
+    # Leave 8 KiB free (a filler in a folder of its own): every output is larger than that.
+    filler = mount_point / "filler"
+    filler.mkdir()
+    free = os.statvfs(mount_point).f_bavail * os.statvfs(mount_point).f_frsize
+    with open(filler / "data", "wb") as f:
+        f.write(bytes(free - 8192))
     yield str(mount_point)
     subprocess.run(["umount", "-l", str(mount_point)], check=False)
 
@@ -86,10 +92,10 @@ def test_disk_full_is_exit_1_without_crash_or_leftovers(writer, analysis, small_
         args = writer_args(writer, target, analysis)
     done = run(args)
     assert done.returncode == 1, f"exit {done.returncode}: {done.stderr[-2000:]}"
-    assert leftovers(small_disk) == []
-    lines = [line for line in done.stderr.splitlines() if line.strip()]
-    assert len(lines) == 1, done.stderr[-2000:]
-    assert target in lines[0] and ".tmp-" not in lines[0]
+    assert leftovers(small_disk) == ["filler"]
+    message = [line for line in done.stderr.splitlines() if line.startswith("latentlift:")]
+    assert len(message) == 1, done.stderr[-2000:]
+    assert target in message[0] and ".tmp-" not in message[0]
 
 
 # ----------------------------------------------------------------------------- runs that overlap
