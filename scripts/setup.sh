@@ -1,9 +1,12 @@
 #!/usr/bin/env bash
 # Install every dependency from Debian packages (when missing) and build latentlift.
 # Usage: scripts/setup.sh [build-dir [target...]]   (default: build, every target)
+#        scripts/setup.sh --deps-only                 (install the packages, build nothing)
 set -euo pipefail
 case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
+deps_only=0
+if [ "${1:-}" = "--deps-only" ]; then deps_only=1; shift; fi
 build=${1:-"$here/build"}
 shift $(( $# > 0 ? 1 : 0 ))
 targets=()
@@ -34,6 +37,7 @@ if [ ${#missing[@]} -gt 0 ]; then
   DEBIAN_FRONTEND=noninteractive $sudo_cmd apt-get install -y -qq "${missing[@]}" >/dev/null
 fi
 
+[ "$deps_only" -eq 1 ] && exit 0
 cmake -S "$here" -B "$build" -DCMAKE_BUILD_TYPE=Release >/dev/null
 cmake --build "$build" -j "$(nproc)" "${targets[@]}"
 echo "setup: built ${*:-everything} in $build"

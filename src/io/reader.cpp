@@ -1176,7 +1176,10 @@ void InputDataset::prepare_block_reads(std::size_t block_columns) const {
           count = (grid.horizontal.size() == 2 && var->grid_dim[i] == 0) ? rows : cols;
         const std::size_t chunk = std::max<size_t>(1, chunks[i]);
         chunk_bytes *= static_cast<double>(chunk);
-        std::size_t across = (count + chunk - 1) / chunk + (count < length ? 1 : 0);  // +1: misaligned blocks
+        // +1 for blocks of rows or columns not aligned with the chunks; a block reads one index
+        // of each outer dimension (time), so one chunk along it is touched, not two.
+        const bool misaligned = var->roles[i] == DimRole::horizontal && count < length;
+        std::size_t across = (count + chunk - 1) / chunk + (misaligned ? 1 : 0);
         touched *= static_cast<double>(std::min(across, (length + chunk - 1) / chunk));
       }
       const double wanted = std::min(kCapBytes, 1.1 * touched * chunk_bytes);
