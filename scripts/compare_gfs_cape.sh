@@ -7,6 +7,7 @@
 # ratio where NCEP's CAPE >= 1000 J/kg, and columns with a latent layer classed "none".
 # Usage: scripts/compare_gfs_cape.sh [build-dir]   (default: build)
 set -euo pipefail
+case "${1:-}" in -h|--help) sed -n '2,/^set -euo/{/^#/s/^# \{0,1\}//p}' "$0"; exit 0 ;; esac  # the comment above
 here=$(cd "$(dirname "$0")/.." && pwd)
 build=${1:-"$here/build"}
 data="$here/../shared/real-data/ncep-nwp-pressure-levels"
