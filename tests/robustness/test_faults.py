@@ -53,10 +53,6 @@ def leftovers(folder, keep=()):
     return sorted(f for f in os.listdir(folder) if f not in keep)
 
 
-def side_files(writer, name):
-    return [name + s for s in (".pgw", ".prj", ".png.aux.xml")] if writer == "quicklook" else []
-
-
 def target_name(writer):
     return "map.png" if writer == "quicklook" else "out.nc"
 
@@ -226,7 +222,7 @@ def test_existing_target_is_kept_without_overwrite(writer, analysis, tmp_path):
     assert leftovers(str(tmp_path)) == [os.path.basename(target)]
 
 
-def test_quicklook_overwrite_replaces_the_map_and_its_side_files(analysis, tmp_path):
+def test_quicklook_overwrite_replaces_the_map(analysis, tmp_path):
     target = str(tmp_path / "map.png")
     first = run(writer_args("quicklook", target, analysis))
     assert first.returncode == 0, first.stderr
@@ -234,4 +230,4 @@ def test_quicklook_overwrite_replaces_the_map_and_its_side_files(analysis, tmp_p
     assert again.returncode == 2 and "--overwrite" in again.stderr
     replaced = run(writer_args("quicklook", target, analysis, overwrite=True))
     assert replaced.returncode == 0, replaced.stderr
-    assert leftovers(str(tmp_path)) == sorted(["map.png", "map.pgw", "map.prj", "map.png.aux.xml"])
+    assert leftovers(str(tmp_path)) == ["map.png"]
