@@ -24,6 +24,7 @@ from __future__ import annotations
 import json
 import os
 import tempfile
+import threading
 from typing import Any, Iterable, Mapping
 
 import numpy as np
@@ -41,6 +42,13 @@ _ENCODING_KEPT = ("dtype", "scale_factor", "add_offset", "_FillValue", "missing_
 # (Dask threads reading inputs, writing results); the C++ library's own calls run while it is
 # held too (threads inside one C++ call use the library's own netCDF lock).
 _NETCDF_LOCK = NETCDF4_PYTHON_LOCK
+# One Dask block at a time per process: a block's work (writing its input file, the C++
+# pipeline, reading its output) runs under this lock. xarray's combined netCDF lock releases
+# its parts in acquisition order, and a file closed by the garbage collector in that window
+# (a non-blocking acquire) keeps one part for good; two blocks interleaving their file I/O
+# on Dask's threaded scheduler deadlocked that way. Threads inside a block still come from
+# OpenMP over its columns.
+_BLOCK_LOCK = threading.Lock()
 # Global attributes that only a complete run knows (QC counts summed over every column).
 _RUN_ATTRIBUTES = ("qc_columns_analysed", "qc_columns_skipped", "qc_humidity_clipped", "qc_dew_point_corrected",
                    "qc_temperature_rejected")
@@ -182,7 +190,7 @@ class _Job:
 
 def _analyze_block(block: xr.Dataset, job: _Job, fields: list[str]) -> xr.Dataset:
     """One Dask block through the command line's pipeline (runs on the workers)."""
-    with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
+    with _BLOCK_LOCK, tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
         target, _ = job.run(block, tmp)
         result = _load(target, fields)
     result = result.reset_coords(drop=True)
