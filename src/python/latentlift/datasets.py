@@ -30,6 +30,7 @@ from typing import Any, Iterable, Mapping
 import numpy as np
 import pandas as pd
 import xarray as xr
+from xarray.backends import locks as xr_locks
 from xarray.backends.netCDF4_ import NETCDF4_PYTHON_LOCK
 
 from latentlift import _core
@@ -49,6 +50,25 @@ _NETCDF_LOCK = NETCDF4_PYTHON_LOCK
 # on Dask's threaded scheduler deadlocked that way. Threads inside a block still come from
 # OpenMP over its columns.
 _BLOCK_LOCK = threading.Lock()
+
+
+def _acquire_all_or_none(self, blocking=True):
+    """CombinedLock.acquire that gives back the parts it took when a later part is busy.
+
+    xarray's version (Debian's 2023.01) keeps the parts it took when a non-blocking acquire
+    fails, which is what the garbage collector's file close does: the netCDF lock then stays
+    held for good and every later netCDF read of the process waits forever."""
+    taken = []
+    for lock in self.locks:
+        if not xr_locks.acquire(lock, blocking=blocking):
+            for part in reversed(taken):
+                part.release()
+            return False
+        taken.append(lock)
+    return True
+
+
+xr_locks.CombinedLock.acquire = _acquire_all_or_none
 # Global attributes that only a complete run knows (QC counts summed over every column).
 _RUN_ATTRIBUTES = ("qc_columns_analysed", "qc_columns_skipped", "qc_humidity_clipped", "qc_dew_point_corrected",
                    "qc_temperature_rejected")
