@@ -124,6 +124,11 @@ class Accumulator {
   /// Flat byte image of the whole state and back; throws Error on a malformed image.
   std::vector<char> serialize() const;
   static Accumulator deserialize(const std::vector<char>& bytes);
+  /// Calls visit(array) on every state array, in the one order of the byte image and of the MPI stream.
+  template <class Visit>
+  void for_each_array(Visit&& visit) const { visit_arrays(*this, visit); }
+  template <class Visit>
+  void for_each_array(Visit&& visit) { visit_arrays(*this, visit); }
 
   // State, indexed by at(group, point) unless noted.
   std::vector<std::uint32_t> count;          // time steps with the column analysed
@@ -135,6 +140,21 @@ class Accumulator {
   std::vector<std::uint32_t> stability_count;  // [stability_at(g, level, class, p)]
 
  private:
+  template <class Self, class Visit>
+  static void visit_arrays(Self& self, Visit& visit) {
+    visit(self.count);
+    visit(self.latent_count);
+    visit(self.real_latent_count);
+    for (int f = 0; f < kFieldCount; ++f) {
+      visit(self.n[f]);
+      visit(self.mean[f]);
+      visit(self.m2[f]);
+      visit(self.max[f]);
+      visit(self.hist[f]);
+    }
+    visit(self.stability_count);
+  }
+
   GroupBy group_by_;
   int groups_;
   std::size_t points_;

@@ -288,17 +288,7 @@ std::vector<char> Accumulator::serialize() const {
   std::vector<std::int64_t> header{0x4c4c4331 /* "LLC1" */, static_cast<std::int64_t>(group_by_),
                                    static_cast<std::int64_t>(points_), levels_};
   put(out, header);
-  put(out, count);
-  put(out, latent_count);
-  put(out, real_latent_count);
-  for (int f = 0; f < kFieldCount; ++f) {
-    put(out, n[f]);
-    put(out, mean[f]);
-    put(out, m2[f]);
-    put(out, max[f]);
-    put(out, hist[f]);
-  }
-  put(out, stability_count);
+  for_each_array([&out](const auto& v) { put(out, v); });
   return out;
 }
 
@@ -310,17 +300,7 @@ Accumulator Accumulator::deserialize(const std::vector<char>& bytes) {
     throw Error("climatology: malformed accumulator image");
   Accumulator acc(static_cast<GroupBy>(header[1]), static_cast<std::size_t>(header[2]),
                   static_cast<int>(header[3]));
-  get(bytes, pos, acc.count);
-  get(bytes, pos, acc.latent_count);
-  get(bytes, pos, acc.real_latent_count);
-  for (int f = 0; f < kFieldCount; ++f) {
-    get(bytes, pos, acc.n[f]);
-    get(bytes, pos, acc.mean[f]);
-    get(bytes, pos, acc.m2[f]);
-    get(bytes, pos, acc.max[f]);
-    get(bytes, pos, acc.hist[f]);
-  }
-  get(bytes, pos, acc.stability_count);
+  acc.for_each_array([&bytes, &pos](auto& v) { get(bytes, pos, v); });
   if (pos != bytes.size()) throw Error("climatology: accumulator image has trailing bytes");
   return acc;
 }

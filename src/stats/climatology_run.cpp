@@ -153,17 +153,7 @@ void reduce_to_root(comm::Communicator& c, Accumulator& acc) {
       acc.merge_stability(recv_vector(c, src, u1, acc.stability_count.size()));
     } else {
       const int dest = c.rank() - step;
-      send_vector(c, dest, acc.count);
-      send_vector(c, dest, acc.latent_count);
-      send_vector(c, dest, acc.real_latent_count);
-      for (int f = 0; f < kFieldCount; ++f) {
-        send_vector(c, dest, acc.n[f]);
-        send_vector(c, dest, acc.mean[f]);
-        send_vector(c, dest, acc.m2[f]);
-        send_vector(c, dest, acc.max[f]);
-        send_vector(c, dest, acc.hist[f]);
-      }
-      send_vector(c, dest, acc.stability_count);
+      acc.for_each_array([&c, dest](const auto& v) { send_vector(c, dest, v); });
       acc = Accumulator();  // sent: release the memory
       return;
     }

@@ -18,8 +18,8 @@ using test::Index;
 using test::SmallGrid;
 using test::Var;
 
-constexpr double kZeroCelsiusK = 273.15;  // K (SI definition of the Celsius scale)
-constexpr double kGravity = 9.80665;      // m s-2 (standard gravity, CGPM 1901)
+using test::kGravity;
+using test::kZeroCelsiusK;
 
 InputAliases no_aliases() { return {}; }
 

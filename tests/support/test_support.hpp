@@ -5,6 +5,10 @@
 
 namespace latentlift::test {
 
+/// Check values shared by the I/O suites.
+constexpr double kZeroCelsiusK = 273.15;  // K (SI definition of the Celsius scale)
+constexpr double kGravity = 9.80665;      // m s-2 (standard gravity, CGPM 1901)
+
 /// Folder of the test sources (tests/).
 std::string test_dir();
 /// The shared real-data folder (../shared/real-data beside the checkout).
