@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "latentlift/column.hpp"
+#include "latentlift/crs.hpp"
 #include "latentlift/grid.hpp"
 #include "latentlift/thermo.hpp"
 
@@ -59,6 +60,28 @@ struct QuantitySource {
   std::string units;     // as in the file
 };
 
+/// Storage type of a variable held in memory (as a NetCDF file would store it).
+enum class StoredType { int8, uint8, int16, uint16, int32, uint32, int64, uint64, float32, float64, text };
+
+/// One variable of a MemoryDataset: values as stored (packed integers, fill values, time offsets)
+/// with the attributes that describe them (units, standard_name, scale_factor, _FillValue ...).
+struct MemoryVariable {
+  std::string name;
+  std::vector<std::string> dims;   // dimension names, outermost first
+  std::vector<std::size_t> shape;  // lengths, one per dimension
+  StoredType type = StoredType::float64;
+  geo::AttributeList attributes;
+  const double* values = nullptr;  // row-major (product of shape values); not owned; nullptr for text
+};
+
+/// A dataset held in memory (e.g. one block of an xarray dataset): what a NetCDF file would hold,
+/// read by the same rules as a file (quantities, units, packing, checks) without netCDF-C.
+struct MemoryDataset {
+  std::string name;  // shown in messages where a file name would be
+  std::vector<MemoryVariable> variables;
+  geo::AttributeList attributes;  // global attributes
+};
+
 /// The input files of one analysis, opened together.
 class InputDataset {
  public:
@@ -67,6 +90,8 @@ class InputDataset {
   /// also for an implausible quantity (src/io/plausibility.hpp).
   InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases,
                const InputConventions& conventions = {});
+  /// Read a dataset held in memory by the rules of a file (`dataset` must outlive this object).
+  InputDataset(const MemoryDataset& dataset, const InputAliases& aliases, const InputConventions& conventions = {});
   ~InputDataset();
   InputDataset(const InputDataset&) = delete;
   InputDataset& operator=(const InputDataset&) = delete;

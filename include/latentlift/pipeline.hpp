@@ -25,6 +25,9 @@ struct PipelineOptions {
   int threads = 0;                         // > 0 overrides config.threads (0: all cores)
   std::vector<std::size_t> time_indices;   // input time indices to analyse (empty: all), e.g. one MPI rank's share
   std::function<void(const Progress&)> progress;  // optional
+  /// One part of a larger dataset (e.g. one Dask block): a part in which no column can be analysed,
+  /// or whose quantity is missing everywhere at a step, is no error (those judge a whole dataset).
+  bool part_of_dataset = false;
 };
 
 struct RunSummary {
@@ -44,8 +47,12 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
 /// Analyse `input` in memory: consumer(input_step, fields) is called once per outer step of the
 /// chosen time indices, in order, with the scalar fields (DESIGN names, output units); with
 /// options.level_fields also FieldSet::stability_class_levels.
-RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& options,
-                             const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer);
+/// level_consumer, when given (with options.level_fields), gets every block of per-level fields
+/// (called from the I/O thread, before consumer of the same step).
+RunSummary analyze_in_memory(
+    const InputDataset& input, const PipelineOptions& options,
+    const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer,
+    const std::function<void(std::size_t input_step, const LevelFieldBlock& block)>& level_consumer = {});
 
 /// Number of scalar real fields (real_field_names().size()).
 constexpr std::size_t kScalarFieldCount = 16;

@@ -4,6 +4,7 @@
 #include <netcdf.h>
 #include <sys/statvfs.h>
 
+#include <algorithm>
 #include <atomic>
 #include <cctype>
 #include <cerrno>
@@ -11,12 +12,156 @@
 #include <ctime>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <utility>
+#include <variant>
 
 #include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
+#include "latentlift/netcdf_io.hpp"
 
 namespace latentlift::io::detail {
+
+namespace {
+
+// Datasets held in memory, by id: ids from kFirstMemoryId downwards (netCDF-C ids are >= 0,
+// -1 means "none" in this layer).
+constexpr int kFirstMemoryId = -1000000;
+
+struct MemoryRegistry {
+  std::mutex mutex;
+  std::map<int, const MemoryDataset*> datasets;
+  int next = kFirstMemoryId;
+};
+
+MemoryRegistry& memory_registry() {
+  static MemoryRegistry registry;
+  return registry;
+}
+
+int register_memory(const MemoryDataset& dataset) {
+  MemoryRegistry& r = memory_registry();
+  std::lock_guard<std::mutex> lock(r.mutex);
+  const int id = r.next--;
+  if (r.next > kFirstMemoryId) r.next = kFirstMemoryId;  // wrapped around after 2^31 datasets
+  r.datasets[id] = &dataset;
+  return id;
+}
+
+void unregister_memory(int id) {
+  MemoryRegistry& r = memory_registry();
+  std::lock_guard<std::mutex> lock(r.mutex);
+  r.datasets.erase(id);
+}
+
+const MemoryDataset& memory_of(int ncid) {
+  MemoryRegistry& r = memory_registry();
+  std::lock_guard<std::mutex> lock(r.mutex);
+  auto it = r.datasets.find(ncid);
+  if (it == r.datasets.end()) throw Error("dataset id " + std::to_string(ncid) + " is not open");
+  return *it->second;
+}
+
+/// The variable varid of a dataset in memory, or nullptr.
+const MemoryVariable* memory_var(int ncid, int varid) {
+  const MemoryDataset& m = memory_of(ncid);
+  if (varid < 0 || static_cast<std::size_t>(varid) >= m.variables.size()) return nullptr;
+  return &m.variables[static_cast<std::size_t>(varid)];
+}
+
+/// The attributes of variable varid (NC_GLOBAL: the dataset's), or nullptr.
+const geo::AttributeList* memory_attributes(int ncid, int varid) {
+  if (varid == NC_GLOBAL) return &memory_of(ncid).attributes;
+  const MemoryVariable* var = memory_var(ncid, varid);
+  return var ? &var->attributes : nullptr;
+}
+
+const geo::Attribute* memory_attribute(int ncid, int varid, const char* name) {
+  const geo::AttributeList* attributes = memory_attributes(ncid, varid);
+  return attributes ? geo::find_attribute(*attributes, name) : nullptr;
+}
+
+nc_type nc_type_of(StoredType type) {
+  switch (type) {
+    case StoredType::int8: return NC_BYTE;
+    case StoredType::uint8: return NC_UBYTE;
+    case StoredType::int16: return NC_SHORT;
+    case StoredType::uint16: return NC_USHORT;
+    case StoredType::int32: return NC_INT;
+    case StoredType::uint32: return NC_UINT;
+    case StoredType::int64: return NC_INT64;
+    case StoredType::uint64: return NC_UINT64;
+    case StoredType::float32: return NC_FLOAT;
+    case StoredType::float64: return NC_DOUBLE;
+    case StoredType::text: return NC_STRING;
+  }
+  return NC_NAT;
+}
+
+/// Text attribute values as the reader compares them: trailing NULs/blanks/newlines and leading blanks removed.
+std::string trimmed(std::string text) {
+  while (!text.empty() && (text.back() == '\0' || text.back() == ' ' || text.back() == '\n')) text.pop_back();
+  size_t first = text.find_first_not_of(' ');
+  return first == std::string::npos ? "" : text.substr(first);
+}
+
+}  // namespace
+
+bool is_memory_id(int ncid) { return ncid <= kFirstMemoryId; }
+
+int variable_count(int ncid) {
+  if (is_memory_id(ncid)) return static_cast<int>(memory_of(ncid).variables.size());
+  int nvars = 0;
+  nc_inq_nvars(ncid, &nvars);
+  return nvars;
+}
+
+int read_slab_doubles(int ncid, int varid, const std::size_t* start, const std::size_t* count, double* out) {
+  if (!is_memory_id(ncid)) return nc_get_vara_double(ncid, varid, start, count, out);
+  const MemoryVariable* var = memory_var(ncid, varid);
+  if (!var) return NC_ENOTVAR;
+  if (!var->values) return NC_ECHAR;
+  const std::size_t ndims = var->shape.size();
+  for (std::size_t i = 0; i < ndims; ++i)
+    if (start[i] + count[i] > var->shape[i]) return NC_EEDGE;
+  std::vector<std::size_t> stride(ndims, 1);
+  for (std::size_t i = ndims; i-- > 1;) stride[i - 1] = stride[i] * var->shape[i];
+  std::size_t total = 1;
+  for (std::size_t i = 0; i < ndims; ++i) total *= count[i];
+  if (total == 0) return NC_NOERR;
+  // Copy runs of the innermost dimension, counting through the outer ones like an odometer.
+  const std::size_t run = ndims ? count[ndims - 1] : 1;
+  std::vector<std::size_t> index(ndims, 0);
+  for (std::size_t done = 0; done < total; done += run) {
+    std::size_t at = 0;
+    for (std::size_t i = 0; i < ndims; ++i) at += (start[i] + index[i]) * stride[i];
+    std::copy_n(var->values + at, run, out + done);
+    for (std::size_t i = ndims - 1; ndims > 0 && i-- > 0;) {
+      if (++index[i] < count[i]) break;
+      index[i] = 0;
+    }
+  }
+  return NC_NOERR;
+}
+
+std::vector<std::string> attribute_names(int ncid, int varid) {
+  std::vector<std::string> names;
+  if (is_memory_id(ncid)) {
+    if (const geo::AttributeList* attributes = memory_attributes(ncid, varid))
+      for (const geo::Attribute& a : *attributes) names.push_back(a.name);
+    return names;
+  }
+  int natts = 0;
+  if (varid == NC_GLOBAL)
+    nc_inq_natts(ncid, &natts);
+  else
+    nc_inq_varnatts(ncid, varid, &natts);
+  for (int a = 0; a < natts; ++a) {
+    char name[NC_MAX_NAME + 1] = {0};
+    if (nc_inq_attname(ncid, varid, a, name) == NC_NOERR) names.emplace_back(name);
+  }
+  return names;
+}
 
 std::string utc_timestamp() {
   const std::time_t now = std::time(nullptr);
@@ -130,6 +275,13 @@ NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
   return file;
 }
 
+NcFile NcFile::open_memory(const MemoryDataset& dataset) {
+  NcFile file;
+  file.id_ = register_memory(dataset);
+  file.path_ = dataset.name;
+  return file;
+}
+
 NcFile NcFile::create_netcdf4(const std::string& path, const std::string& reported_as) {
   NcFile file;
   quiet_library_errors();
@@ -160,7 +312,10 @@ int close_for_good(int id) {
 bool netcdf_files_left_open() { return g_left_open; }
 
 NcFile::~NcFile() {
-  if (id_ >= 0) close_for_good(id_);
+  if (is_memory_id(id_))
+    unregister_memory(id_);
+  else if (id_ >= 0)
+    close_for_good(id_);
 }
 
 NcFile::NcFile(NcFile&& other) noexcept
@@ -168,7 +323,10 @@ NcFile::NcFile(NcFile&& other) noexcept
 
 NcFile& NcFile::operator=(NcFile&& other) noexcept {
   if (this != &other) {
-    if (id_ >= 0) close_for_good(id_);
+    if (is_memory_id(id_))
+      unregister_memory(id_);
+    else if (id_ >= 0)
+      close_for_good(id_);
     id_ = std::exchange(other.id_, -1);
     path_ = std::move(other.path_);
   }
@@ -176,12 +334,17 @@ NcFile& NcFile::operator=(NcFile&& other) noexcept {
 }
 
 void NcFile::close() {
+  if (is_memory_id(id_)) unregister_memory(std::exchange(id_, -1));
   if (id_ < 0) return;
   int id = std::exchange(id_, -1);
   check(close_for_good(id), path_, "closing");
 }
 
 std::string var_name(int ncid, int varid) {
+  if (is_memory_id(ncid)) {
+    const MemoryVariable* var = memory_var(ncid, varid);
+    return var ? var->name : "";
+  }
   char name[NC_MAX_NAME + 1] = {0};
   nc_inq_varname(ncid, varid, name);
   return name;
@@ -189,6 +352,15 @@ std::string var_name(int ncid, int varid) {
 
 VarShape var_shape(int ncid, int varid) {
   VarShape shape;
+  if (is_memory_id(ncid)) {  // dimension ids: positions in the variable (not shared between variables)
+    if (const MemoryVariable* var = memory_var(ncid, varid))
+      for (std::size_t i = 0; i < var->dims.size(); ++i) {
+        shape.dimids.push_back(static_cast<int>(i));
+        shape.names.push_back(var->dims[i]);
+        shape.lengths.push_back(var->shape[i]);
+      }
+    return shape;
+  }
   int ndims = 0;
   nc_inq_varndims(ncid, varid, &ndims);
   shape.dimids.resize(ndims);
@@ -204,12 +376,22 @@ VarShape var_shape(int ncid, int varid) {
 }
 
 int var_type(int ncid, int varid) {
+  if (is_memory_id(ncid)) {
+    const MemoryVariable* var = memory_var(ncid, varid);
+    return var ? nc_type_of(var->type) : NC_NAT;
+  }
   nc_type type = NC_NAT;
   nc_inq_vartype(ncid, varid, &type);
   return type;
 }
 
 int find_var(int ncid, const std::string& name) {
+  if (is_memory_id(ncid)) {
+    const MemoryDataset& m = memory_of(ncid);
+    for (std::size_t v = 0; v < m.variables.size(); ++v)
+      if (m.variables[v].name == name) return static_cast<int>(v);
+    return -1;
+  }
   int varid = -1;
   if (nc_inq_varid(ncid, name.c_str(), &varid) != NC_NOERR) return -1;
   return varid;
@@ -224,10 +406,16 @@ int coordinate_var(int ncid, const std::string& dim_name) {
 }
 
 bool has_attribute(int ncid, int varid, const char* name) {
+  if (is_memory_id(ncid)) return memory_attribute(ncid, varid, name) != nullptr;
   return nc_inq_att(ncid, varid, name, nullptr, nullptr) == NC_NOERR;
 }
 
 std::string text_attribute(int ncid, int varid, const char* name) {
+  if (is_memory_id(ncid)) {
+    const geo::Attribute* a = memory_attribute(ncid, varid, name);
+    const std::string* text = a ? std::get_if<std::string>(&a->value) : nullptr;
+    return text ? trimmed(*text) : "";
+  }
   nc_type type = NC_NAT;
   size_t length = 0;
   if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) return "";
@@ -243,12 +431,15 @@ std::string text_attribute(int ncid, int varid, const char* name) {
   } else {
     return "";
   }
-  while (!text.empty() && (text.back() == '\0' || text.back() == ' ' || text.back() == '\n')) text.pop_back();
-  size_t first = text.find_first_not_of(' ');
-  return first == std::string::npos ? "" : text.substr(first);
+  return trimmed(std::move(text));
 }
 
 std::vector<double> number_attribute(int ncid, int varid, const char* name) {
+  if (is_memory_id(ncid)) {
+    const geo::Attribute* a = memory_attribute(ncid, varid, name);
+    const std::vector<double>* numbers = a ? std::get_if<std::vector<double>>(&a->value) : nullptr;
+    return numbers ? *numbers : std::vector<double>{};
+  }
   nc_type type = NC_NAT;
   size_t length = 0;
   if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) return {};
@@ -262,11 +453,17 @@ void check_packing_attributes(int ncid, int varid, const std::string& file, cons
   for (const char* name : {"scale_factor", "add_offset", "_FillValue", "missing_value", "valid_range", "valid_min",
                            "valid_max"}) {
     AttributeValue value;
-    nc_type type = NC_NAT;
-    size_t length = 0;
-    if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) continue;
+    if (is_memory_id(ncid)) {
+      const geo::Attribute* a = memory_attribute(ncid, varid, name);
+      if (!a) continue;
+      value.is_text = std::holds_alternative<std::string>(a->value);
+    } else {
+      nc_type type = NC_NAT;
+      size_t length = 0;
+      if (nc_inq_att(ncid, varid, name, &type, &length) != NC_NOERR) continue;
+      value.is_text = type == NC_CHAR || type == NC_STRING;
+    }
     value.present = true;
-    value.is_text = type == NC_CHAR || type == NC_STRING;
     if (value.is_text)
       value.text = text_attribute(ncid, varid, name);
     else
@@ -287,7 +484,8 @@ std::vector<double> read_all_doubles(int ncid, int varid, const std::string& fil
   check_memory(file, name, "reading it", bytes);
   std::vector<double> values(n);
   if (n == 0) return values;
-  const int status = nc_get_var_double(ncid, varid, values.data());
+  const std::vector<std::size_t> start(shape.lengths.size(), 0);
+  const int status = read_slab_doubles(ncid, varid, start.data(), shape.lengths.data(), values.data());
   if (status == NC_ECHAR)
     throw InputError(file, name, "numbers (found " + std::string(var_type(ncid, varid) == NC_STRING ? "strings" : "characters") + ")");
   if (status != NC_NOERR)

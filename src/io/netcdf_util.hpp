@@ -3,9 +3,14 @@
 // and writes on a background thread; code calling netCDF while a pipeline runs must take it too.
 #pragma once
 
+#include <cstddef>
 #include <mutex>
 #include <string>
 #include <vector>
+
+namespace latentlift {
+struct MemoryDataset;
+}
 
 namespace latentlift::io::detail {
 
@@ -33,6 +38,9 @@ class NcFile {
   /// Create a NetCDF-4 file (clobbering path). Messages name it reported_as when given (the
   /// user's target rather than the temporary file written for it).
   static NcFile create_netcdf4(const std::string& path, const std::string& reported_as = "");
+  /// A dataset held in memory under an id of its own (is_memory_id), read by the helpers below
+  /// like a file opened read-only; named dataset.name in messages. `dataset` must outlive it.
+  static NcFile open_memory(const MemoryDataset& dataset);
   ~NcFile();
   NcFile(NcFile&& other) noexcept;
   NcFile& operator=(NcFile&& other) noexcept;
@@ -59,6 +67,17 @@ struct VarShape {
   std::vector<std::string> names;
   std::vector<std::size_t> lengths;
 };
+
+/// Ids of datasets held in memory (NcFile::open_memory) are never netCDF-C ids: every helper
+/// below taking an ncid answers for them from memory (no netCDF-C call, no netcdf_mutex needed),
+/// so the reader applies one set of rules to files and to memory.
+bool is_memory_id(int ncid);
+/// Number of variables of a dataset.
+int variable_count(int ncid);
+/// A hyperslab of a variable as doubles (no unpacking); the netCDF status (NC_NOERR on success).
+int read_slab_doubles(int ncid, int varid, const std::size_t* start, const std::size_t* count, double* out);
+/// Names of a variable's attributes (NC_GLOBAL: the dataset's), in order.
+std::vector<std::string> attribute_names(int ncid, int varid);
 
 std::string var_name(int ncid, int varid);
 VarShape var_shape(int ncid, int varid);

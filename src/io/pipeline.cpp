@@ -226,7 +226,7 @@ class Runner {
     for (auto& w : level_writes_) timed_wait(w, output_wait_seconds);
     for (auto& w : block_writes_) timed_wait(w, output_wait_seconds);
     block_writes_.clear();
-    if (!any_t || !any_h || !any_z) input_.throw_all_missing(step, any_t, any_h, any_z);
+    if (!options_.part_of_dataset && (!any_t || !any_h || !any_z)) input_.throw_all_missing(step, any_t, any_h, any_z);
   }
 
   /// InputDataset::decode_step on every OpenMP thread (they share the chunks).
@@ -428,8 +428,10 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
   return summary;
 }
 
-RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& options,
-                             const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer) {
+RunSummary analyze_in_memory(
+    const InputDataset& input, const PipelineOptions& options,
+    const std::function<void(std::size_t input_step, const FieldSet& fields)>& consumer,
+    const std::function<void(std::size_t input_step, const LevelFieldBlock& block)>& level_consumer) {
   const auto start = std::chrono::steady_clock::now();
   const GridDescription& grid = input.grid();
   for (std::size_t t : options.time_indices)
@@ -444,8 +446,10 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
   // With level fields the consumer gets the stability classes per level (the climatology
   // counts them); the other per-level fields are not kept.
   std::function<void(const LevelFieldBlock&)> level_sink;
+  std::size_t current_step = 0;
   if (options.level_fields)
-    level_sink = [&fields, nz, n = grid.n_columns](const LevelFieldBlock& block) {
+    level_sink = [&fields, &level_consumer, &current_step, nz, n = grid.n_columns](const LevelFieldBlock& block) {
+      if (level_consumer) level_consumer(current_step, block);
       const std::vector<std::int8_t>& classes = block.byte.at("stability_class");
       const std::size_t count = block.range.count;
       for (std::size_t k = 0; k < nz; ++k)
@@ -454,6 +458,7 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
     };
   const std::vector<std::size_t> steps = steps_of_times(grid, options.time_indices);
   for (std::size_t i = 0; i < steps.size(); ++i) {
+    current_step = steps[i];
     if (options.level_fields) fields.stability_class_levels.assign(nz * grid.n_columns, kByteMissing);
     runner.run_step(steps[i], i, steps.size(), fields, level_sink, {},
                     i + 1 < steps.size() ? steps[i + 1] : Runner::kNoStep);
@@ -464,7 +469,7 @@ RunSummary analyze_in_memory(const InputDataset& input, const PipelineOptions& o
   summary.columns = steps.size() * grid.n_columns;
   summary.input_wait_seconds = runner.input_wait_seconds;
   summary.seconds = seconds_since(start);
-  require_analysed_columns(input, summary);
+  if (!options.part_of_dataset) require_analysed_columns(input, summary);
   return summary;
 }
 

@@ -81,8 +81,7 @@ std::vector<std::string> split_words(const std::string& text) {
 /// else any non-coordinate variable of the file with latitude/longitude units over its dims.
 void find_lat_lon_aux(int ncid, int varid, const VarShape& shape, std::string& lat, std::string& lon) {
   std::vector<std::string> names = split_words(d::text_attribute(ncid, varid, "coordinates"));
-  int nvars = 0;
-  nc_inq_nvars(ncid, &nvars);
+  const int nvars = d::variable_count(ncid);
   if (names.empty())
     for (int v = 0; v < nvars; ++v) names.push_back(d::var_name(ncid, v));
   for (const std::string& name : names) {
@@ -160,8 +159,7 @@ Candidate find_quantity(int ncid, const std::vector<Wanted>& wanted, const Input
     classify(ncid, varid, shape, vertical);
     return need_vertical ? vertical == 1 : vertical == 0 && !shape.names.empty();
   };
-  int nvars = 0;
-  nc_inq_nvars(ncid, &nvars);
+  const int nvars = d::variable_count(ncid);
   for (const Wanted& w : wanted) {
     std::vector<int> candidates;
     for (int v = 0; v < nvars; ++v)
@@ -387,7 +385,7 @@ void attach_chunk_readers(InputDataset::Impl& impl) {
         int format = 0;
         std::shared_ptr<d::ChunkReader> reader;
         const NcFile& file = impl.files[var->file];
-        if (nc_inq_format(file.id(), &format) == NC_NOERR &&
+        if (!d::is_memory_id(file.id()) && nc_inq_format(file.id(), &format) == NC_NOERR &&
             (format == NC_FORMAT_NETCDF4 || format == NC_FORMAT_NETCDF4_CLASSIC)) {
           std::vector<bool> outer_dims;
           for (DimRole role : var->roles) outer_dims.push_back(role == DimRole::outer);
@@ -483,10 +481,10 @@ namespace {
 
 void check_sampled_columns(const InputDataset& input);
 
+void find_inputs(InputDataset::Impl& impl, const InputAliases& aliases, const InputConventions& conventions);
+
 void open_files(InputDataset::Impl& impl, const std::vector<std::string>& input_paths, const InputAliases& aliases,
                 const InputConventions& conventions) {
-  const std::vector<std::string>& chosen = conventions.chosen_quantities;
-  impl.conventions = conventions;
   impl.input_paths = input_paths;
   std::vector<std::string> grib_paths;
   for (const std::string& path : input_paths) {
@@ -502,6 +500,13 @@ void open_files(InputDataset::Impl& impl, const std::vector<std::string>& input_
     impl.paths.push_back(impl.grib->label());
     impl.files.push_back(NcFile::open_read(impl.grib->path(), impl.grib->label()));
   }
+  find_inputs(impl, aliases, conventions);
+}
+
+/// Everything the reader decides about the opened datasets (impl.files, named impl.paths).
+void find_inputs(InputDataset::Impl& impl, const InputAliases& aliases, const InputConventions& conventions) {
+  const std::vector<std::string>& chosen = conventions.chosen_quantities;
+  impl.conventions = conventions;
   const std::vector<std::string>& paths = impl.paths;  // from here on: one entry per opened file
   const int nfiles = static_cast<int>(paths.size());
 
@@ -856,6 +861,18 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
   check_sampled_columns(*this);  // reads a sample through read_block, which takes the lock itself
 }
 
+InputDataset::InputDataset(const MemoryDataset& dataset, const InputAliases& aliases,
+                           const InputConventions& conventions)
+    : impl_(std::make_unique<Impl>()) {
+  impl_->input_paths = {dataset.name};
+  impl_->paths = {dataset.name};
+  impl_->files.push_back(NcFile::open_memory(dataset));
+  // No netCDF-C (nor HDF5) call is made for a dataset in memory, so the netCDF lock is not
+  // taken: blocks of several threads are read side by side, beside any other netCDF user.
+  find_inputs(*impl_, aliases, conventions);
+  check_sampled_columns(*this);
+}
+
 InputDataset::~InputDataset() = default;
 
 const GridDescription& InputDataset::grid() const { return impl_->grid; }
@@ -995,6 +1012,13 @@ void read_var(const InputDataset::Impl& impl, const VarRef& var, std::size_t loc
     return;
   }
   const NcFile& file = impl.files[var.file];
+  if (d::is_memory_id(file.id())) {  // held in memory: no netCDF-C call, no lock
+    t_raw_double.resize(total);
+    const int status = d::read_slab_doubles(file.id(), var.varid, start.data(), count.data(), t_raw_double.data());
+    if (status != NC_NOERR) throw InputError(file.path(), var.name, std::string("numeric data (") + nc_strerror(status) + ")");
+    any_valid = scatter(t_raw_double.data(), var, level_stride, n_levels, offsets, column_stride, dst) || any_valid;
+    return;
+  }
   const bool as_float = var.type == NC_FLOAT;
   {
     std::lock_guard<std::mutex> lock(d::netcdf_mutex());
@@ -1155,6 +1179,8 @@ void InputDataset::prepare_block_reads(std::size_t block_columns) const {
     rows = block_columns >= nx ? std::min(grid.horizontal[0].length, block_columns / nx) : 1;
     cols = block_columns >= nx ? nx : block_columns;
   }
+  if (std::all_of(impl.files.begin(), impl.files.end(), [](const NcFile& f) { return d::is_memory_id(f.id()); }))
+    return;  // nothing to cache
   std::lock_guard<std::mutex> lock(d::netcdf_mutex());
   for (const Segment& segment : impl.segments)
     for (const VarRef* var : {&segment.temp, &segment.humidity, &segment.height, &segment.surface_pressure,
@@ -1268,16 +1294,12 @@ void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<doub
     // No 2-D lat/lon in the file: derive them from the grid mapping and the 1-D x/y (PROJ).
     const int mapping = d::find_var(file.id(), grid.grid_mapping);
     geo::AttributeList attributes;
-    int natts = 0;
-    nc_inq_varnatts(file.id(), mapping, &natts);
-    for (int a = 0; a < natts; ++a) {
-      char name[NC_MAX_NAME + 1] = {0};
-      nc_inq_attname(file.id(), mapping, a, name);
-      std::vector<double> numbers = d::number_attribute(file.id(), mapping, name);
+    for (const std::string& name : d::attribute_names(file.id(), mapping)) {
+      std::vector<double> numbers = d::number_attribute(file.id(), mapping, name.c_str());
       if (!numbers.empty())
         attributes.push_back({name, numbers});
       else
-        attributes.push_back({name, d::text_attribute(file.id(), mapping, name)});
+        attributes.push_back({name, d::text_attribute(file.id(), mapping, name.c_str())});
     }
     const int y_var = d::coordinate_var(file.id(), grid.horizontal[0].name);
     const int x_var = d::coordinate_var(file.id(), grid.horizontal[1].name);

@@ -6,8 +6,12 @@
 #include <pybind11/pybind11.h>
 #include <pybind11/stl.h>
 
+#include <algorithm>
 #include <cstdint>
 #include <exception>
+#include <functional>
+#include <map>
+#include <numeric>
 #include <limits>
 #include <optional>
 #include <memory>
@@ -47,6 +51,7 @@ py::dict qc_dict(const QcCounts& qc) {
   d["humidity_clipped"] = qc.humidity_clipped;
   d["dew_point_corrected"] = qc.dew_point_corrected;
   d["temperature_rejected"] = qc.temperature_rejected;
+  d["surface_pressure_rejected"] = qc.surface_pressure_rejected;
   return d;
 }
 
@@ -174,6 +179,152 @@ py::dict analyze_columns(const DoubleArray& temp_k, const DoubleArray& humidity,
   return out;
 }
 
+/// A dataset handed over from Python: the MemoryDataset and the arrays its values point into.
+struct HeldDataset {
+  MemoryDataset dataset;
+  std::vector<DoubleArray> arrays;  // keep the values alive (and in double) while C++ reads them
+};
+
+StoredType stored_type_of(const std::string& dtype, const std::string& variable) {
+  static const std::map<std::string, StoredType> types = {
+      {"int8", StoredType::int8},       {"bool", StoredType::int8},       {"uint8", StoredType::uint8},
+      {"int16", StoredType::int16},     {"uint16", StoredType::uint16},   {"int32", StoredType::int32},
+      {"uint32", StoredType::uint32},   {"int64", StoredType::int64},     {"uint64", StoredType::uint64},
+      {"float32", StoredType::float32}, {"float64", StoredType::float64}, {"text", StoredType::text}};
+  auto it = types.find(dtype);
+  if (it == types.end()) throw UsageError("variable '" + variable + "': values of type " + dtype + " cannot be read");
+  return it->second;
+}
+
+geo::AttributeList attributes_of(const py::dict& attributes) {
+  geo::AttributeList out;
+  for (const auto& [key, value] : attributes) {
+    const std::string name = py::str(key);
+    if (py::isinstance<py::str>(value))
+      out.push_back({name, value.cast<std::string>()});
+    else if (py::isinstance<py::bytes>(value))
+      out.push_back({name, std::string(value.cast<py::bytes>())});
+    else
+      out.push_back({name, py::array_t<double, py::array::c_style | py::array::forcecast>::ensure(value)
+                               .cast<std::vector<double>>()});
+  }
+  return out;
+}
+
+/// variables: (name, dims, dtype name, attributes, values or None) per variable, values as stored.
+std::unique_ptr<HeldDataset> held_dataset_of(const std::string& name, const py::list& variables,
+                                             const py::dict& attributes) {
+  auto held = std::make_unique<HeldDataset>();
+  held->dataset.name = name;
+  held->dataset.attributes = attributes_of(attributes);
+  for (const py::handle& item : variables) {
+    const py::tuple t = py::reinterpret_borrow<py::tuple>(item);
+    MemoryVariable var;
+    var.name = t[0].cast<std::string>();
+    var.dims = t[1].cast<std::vector<std::string>>();
+    var.type = stored_type_of(t[2].cast<std::string>(), var.name);
+    var.attributes = attributes_of(t[3].cast<py::dict>());
+    var.shape = t[4].cast<std::vector<std::size_t>>();
+    if (var.shape.size() != var.dims.size())
+      throw UsageError("variable '" + var.name + "': one length per dimension expected");
+    if (var.type != StoredType::text) {
+      DoubleArray values = DoubleArray::ensure(t[5]);
+      if (!values || static_cast<std::size_t>(values.size()) !=
+                         std::accumulate(var.shape.begin(), var.shape.end(), std::size_t{1}, std::multiplies<>()))
+        throw UsageError("variable '" + var.name + "': values of its shape expected");
+      var.values = values.data();
+      held->arrays.push_back(std::move(values));
+    }
+    held->dataset.variables.push_back(std::move(var));
+  }
+  return held;
+}
+
+/// `latentlift analyze` on a dataset held in memory: the command line's reader (quantities,
+/// units, checks) and pipeline, no netCDF-C; the fields per outer step as arrays.
+py::dict analyze_dataset(const std::string& name, const py::list& variables, const py::dict& attributes,
+                         const std::string& config_path, const std::vector<std::string>& overrides, bool level_fields,
+                         int threads, bool part_of_dataset) {
+  std::unique_ptr<HeldDataset> held = held_dataset_of(name, variables, attributes);
+  std::map<std::string, std::vector<float>> real;
+  std::map<std::string, std::vector<std::int8_t>> byte;
+  std::vector<std::string> outer_dims, horizontal_dims;
+  std::vector<std::size_t> outer_shape, horizontal_shape;
+  std::string vertical_dim;
+  std::size_t n_steps = 0, n_columns = 0, nz = 0;
+  RunSummary summary;
+  {
+    py::gil_scoped_release release;
+    PipelineOptions options;
+    options.config = load_config(config_path, overrides);
+    options.level_fields = level_fields;
+    options.threads = threads;
+    options.part_of_dataset = part_of_dataset;
+    InputDataset input(held->dataset, options.config.aliases, options.config.conventions);
+    const GridDescription& grid = input.grid();
+    n_steps = grid.n_steps;
+    n_columns = grid.n_columns;
+    nz = grid.vertical.length;
+    for (const OuterDimension& dim : grid.outer) {
+      outer_dims.push_back(dim.name);
+      outer_shape.push_back(dim.length);
+    }
+    for (const Dimension& dim : grid.horizontal) {
+      horizontal_dims.push_back(dim.name);
+      horizontal_shape.push_back(dim.length);
+    }
+    vertical_dim = grid.vertical.name;
+    const double nan = std::numeric_limits<double>::quiet_NaN();
+    for (const std::string& f : real_field_names()) real[f].assign(n_steps * n_columns, static_cast<float>(nan));
+    for (const std::string& f : byte_field_names()) byte[f].assign(n_steps * n_columns, kByteMissing);
+    if (level_fields) {
+      for (const std::string& f : real_level_field_names()) real[f].assign(n_steps * nz * n_columns, static_cast<float>(nan));
+      for (const std::string& f : byte_level_field_names()) byte[f].assign(n_steps * nz * n_columns, kByteMissing);
+    }
+    auto maps = [&](std::size_t step, const FieldSet& fields) {
+      for (const auto& [f, values] : fields.real) std::copy(values.begin(), values.end(), real[f].begin() + step * n_columns);
+      for (const auto& [f, values] : fields.byte) std::copy(values.begin(), values.end(), byte[f].begin() + step * n_columns);
+    };
+    // Per-level blocks [level][column in block] into [step][level][column].
+    auto levels = [&](std::size_t step, const LevelFieldBlock& block) {
+      const std::size_t count = block.range.count;
+      auto place = [&](const auto& from, auto& to) {
+        for (std::size_t k = 0; k < nz; ++k)
+          std::copy_n(from.begin() + k * count, count, to.begin() + (step * nz + k) * n_columns + block.range.begin);
+      };
+      for (const auto& [f, values] : block.real) place(values, real.at(f));
+      for (const auto& [f, values] : block.byte) place(values, byte.at(f));
+    };
+    summary = analyze_in_memory(input, options, maps, levels);
+  }
+  py::dict fields;
+  auto as_array = [&](const auto& values, bool per_level) {
+    using T = typename std::decay_t<decltype(values)>::value_type;
+    std::vector<py::ssize_t> shape = {static_cast<py::ssize_t>(n_steps)};
+    if (per_level) shape.push_back(static_cast<py::ssize_t>(nz));
+    shape.push_back(static_cast<py::ssize_t>(n_columns));
+    py::array_t<T> out(shape);
+    std::copy(values.begin(), values.end(), out.mutable_data());
+    return out;
+  };
+  auto is_level_field = [](const std::string& f) {
+    for (const auto* names : {&real_level_field_names(), &byte_level_field_names()})
+      if (std::find(names->begin(), names->end(), f) != names->end()) return true;
+    return false;
+  };
+  for (const auto& [f, values] : real) fields[py::str(f)] = as_array(values, is_level_field(f));
+  for (const auto& [f, values] : byte) fields[py::str(f)] = as_array(values, is_level_field(f));
+  py::dict out;
+  out["fields"] = fields;
+  out["outer_dims"] = outer_dims;
+  out["outer_shape"] = outer_shape;
+  out["vertical_dim"] = vertical_dim;
+  out["horizontal_dims"] = horizontal_dims;
+  out["horizontal_shape"] = horizontal_shape;
+  out["qc"] = qc_dict(summary.qc);
+  return out;
+}
+
 /// `latentlift analyze` on files: the reader, pipeline and writer of the command line.
 py::dict analyze_files(const std::vector<std::string>& inputs, const std::string& output,
                        const std::string& config_path, const std::vector<std::string>& overrides, bool level_fields,
@@ -252,6 +403,11 @@ PYBIND11_MODULE(_core, m) {
         py::arg("humidity_kind"), py::arg("height_m"), py::arg("surface_pressure_pa"), py::arg("config_path"),
         py::arg("overrides"), py::arg("level_fields"), py::arg("threads"),
         "Analyse N columns ([..., level] arrays, SI units, NaN missing); fields in output units (hPa, K, m, J kg-1)");
+  m.def("analyze_dataset", &analyze_dataset, py::arg("name"), py::arg("variables"), py::arg("attributes"),
+        py::arg("config_path"), py::arg("overrides"), py::arg("level_fields"), py::arg("threads"),
+        py::arg("part_of_dataset") = false,
+        "latentlift analyze on a dataset held in memory (variables as stored: name, dims, dtype, attributes, shape, "
+        "values): fields per outer step, [step, (level,) column], and the QC counts");
   m.def("analyze_files", &analyze_files, py::arg("inputs"), py::arg("output"), py::arg("config_path"),
         py::arg("overrides"), py::arg("level_fields"), py::arg("threads"), py::arg("history"),
         py::arg("deflate_level") = -1, "latentlift analyze INPUT... -o OUTPUT, in process");

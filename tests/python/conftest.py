@@ -20,7 +20,7 @@ SAMPLE_GRIDS = {
 # Run-specific global attributes (when and how it ran, what it read): not compared.
 RUN_ATTRIBUTES = {"history", "input_files"}
 QC_ATTRIBUTES = {"qc_columns_analysed", "qc_columns_skipped", "qc_humidity_clipped", "qc_dew_point_corrected",
-                 "qc_temperature_rejected"}
+                 "qc_temperature_rejected", "qc_surface_pressure_rejected"}
 
 
 def binary():

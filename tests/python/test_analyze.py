@@ -8,18 +8,6 @@ import latentlift
 from conftest import SAMPLE_GRIDS, assert_same_output
 
 
-@pytest.fixture(autouse=True)
-def one_thread_dask_scheduler():
-    # Known issue, not yet fixed: on Dask's threaded scheduler, blocks writing their files
-    # while other tasks read the input through xarray can deadlock on xarray's netCDF lock
-    # (seen in CI). These tests check the results on Dask's synchronous scheduler; several
-    # worker processes are tested in test_cluster.py.
-    import dask
-
-    with dask.config.set(scheduler="synchronous"):
-        yield
-
-
 def test_numpy_backed_dataset_gives_the_command_line_output(sample_grid, cli_output):
     # Reference: `latentlift analyze` on the same file (the program's own command line).
     with xr.open_dataset(sample_grid) as ds:

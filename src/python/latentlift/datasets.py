@@ -8,9 +8,13 @@ anything about quantities itself:
 
 * NumPy-backed datasets are written to a temporary file and analysed by the command line's
   own pipeline and writer, in process; the result is that output file, loaded.
-* Dask-backed datasets are analysed lazily, one Dask block at a time (``xarray.map_blocks``,
-  the pressure dimension in one chunk, blocks over the horizontal and outer dimensions),
-  each block passing through the same pipeline. The result's variables, attributes,
+* Dask-backed datasets are analysed lazily, one task per Dask block (``xarray.map_blocks``,
+  the pressure dimension in one chunk, blocks over the horizontal and outer dimensions). Each
+  block is handed to the same reader and pipeline in memory - its variables as a NetCDF file
+  would store them (xarray's own CF encoding: packing, fill values, times as numbers) with
+  their attributes - and its fields come back as arrays: no file is written or read, no
+  netCDF lock is taken and the GIL is released, so blocks run side by side on Dask's threaded
+  scheduler. The result's variables, attributes,
   coordinates and grid mapping come, before anything is computed, from the writer run on
   the dataset's metadata (coordinates written, fields left unwritten), so errors in the
   metadata are raised by ``analyze`` itself, those in the data when it is computed.
@@ -24,13 +28,11 @@ from __future__ import annotations
 import json
 import os
 import tempfile
-import threading
 from typing import Any, Iterable, Mapping
 
 import numpy as np
 import pandas as pd
 import xarray as xr
-from xarray.backends import locks as xr_locks
 from xarray.backends.netCDF4_ import NETCDF4_PYTHON_LOCK
 
 from latentlift import _core
@@ -39,39 +41,15 @@ from latentlift.settings import config_path_of, overrides_of
 # Encoding kept when a dataset is written for the reader: what makes the file's raw values and
 # attributes those of the original (packing, fill value, time units); storage details dropped.
 _ENCODING_KEPT = ("dtype", "scale_factor", "add_offset", "_FillValue", "missing_value", "units", "calendar")
-# netCDF-C is not thread-safe. xarray's netCDF4 backend serialises its calls on this lock
-# (Dask threads reading inputs, writing results); the C++ library's own calls run while it is
-# held too (threads inside one C++ call use the library's own netCDF lock).
+# netCDF-C is not thread-safe. xarray's netCDF4 backend serialises its calls on this lock; the
+# C++ library's file calls (a NumPy-backed dataset, the template of a lazy result, column) run
+# while it is held too. Dask blocks are analysed in memory and take no lock.
 _NETCDF_LOCK = NETCDF4_PYTHON_LOCK
-# One Dask block at a time per process: a block's work (writing its input file, the C++
-# pipeline, reading its output) runs under this lock. xarray's combined netCDF lock releases
-# its parts in acquisition order, and a file closed by the garbage collector in that window
-# (a non-blocking acquire) keeps one part for good; two blocks interleaving their file I/O
-# on Dask's threaded scheduler deadlocked that way. Threads inside a block still come from
-# OpenMP over its columns.
-_BLOCK_LOCK = threading.Lock()
-
-
-def _acquire_all_or_none(self, blocking=True):
-    """CombinedLock.acquire that gives back the parts it took when a later part is busy.
-
-    xarray's version (Debian's 2023.01) keeps the parts it took when a non-blocking acquire
-    fails, which is what the garbage collector's file close does: the netCDF lock then stays
-    held for good and every later netCDF read of the process waits forever."""
-    taken = []
-    for lock in self.locks:
-        if not xr_locks.acquire(lock, blocking=blocking):
-            for part in reversed(taken):
-                part.release()
-            return False
-        taken.append(lock)
-    return True
-
-
-xr_locks.CombinedLock.acquire = _acquire_all_or_none
+# Encoding attributes by which xarray decodes a field's stored values (masking, packing).
+_DECODED_ATTRIBUTES = ("_FillValue", "missing_value", "scale_factor", "add_offset")
 # Global attributes that only a complete run knows (QC counts summed over every column).
 _RUN_ATTRIBUTES = ("qc_columns_analysed", "qc_columns_skipped", "qc_humidity_clipped", "qc_dew_point_corrected",
-                   "qc_temperature_rejected")
+                   "qc_temperature_rejected", "qc_surface_pressure_rejected")
 
 
 def analyze(
@@ -153,6 +131,26 @@ class _Job:
                               self.overrides, self.level_fields, self.threads, self.history, deflate_level)
         return target, summary
 
+    def fields_in_memory(self, ds: xr.Dataset, part_of_dataset: bool = False) -> xr.Dataset:
+        """The fields of ds (held in memory, numeric values) as a Dataset on ds's dimensions,
+        the QC counts of the run in its attributes (``qc_...``). part_of_dataset: ds is one
+        block of a larger dataset (no error for a block in which nothing can be analysed)."""
+        variables, attributes = _stored(ds)
+        out = _core.analyze_dataset(self.name, variables, attributes, self.config, self.overrides, self.level_fields,
+                                    self.threads, part_of_dataset)
+        outer, horizontal = list(out["outer_dims"]), list(out["horizontal_dims"])
+        outer_shape, horizontal_shape = list(out["outer_shape"]), list(out["horizontal_shape"])
+        result = xr.Dataset()
+        for name, values in out["fields"].items():
+            if values.ndim == 3:  # [step, level, column]
+                dims = outer + [out["vertical_dim"]] + horizontal
+                shape = outer_shape + [values.shape[1]] + horizontal_shape
+            else:
+                dims, shape = outer + horizontal, outer_shape + horizontal_shape
+            result[name] = (dims, values.reshape(shape))
+        result.attrs = {"qc_" + key: value for key, value in out["qc"].items()}
+        return result
+
     def analyze_now(self, ds: xr.Dataset) -> xr.Dataset:
         with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
             target, _ = self.run(ds, tmp)
@@ -187,7 +185,10 @@ class _Job:
             data = dask.array.empty(shape, chunks=block_chunks, dtype=var.dtype)
             blocks[name] = xr.DataArray(data, dims=var.dims, attrs=var.attrs)
             blocks[name].encoding = _clean_encoding(var.encoding)
-        result = xr.map_blocks(_analyze_block, ds, kwargs={"job": self, "fields": fields}, template=blocks)
+        several = any(len(c) > 1 for c in chunks.values())
+        stored = {name: _clean_encoding(template[name].encoding) for name in fields}
+        result = xr.map_blocks(_analyze_block, ds, kwargs={"job": self, "stored": stored, "part": several},
+                               template=blocks)
         extra = template.drop_vars(fields)
         # Coordinates as the writer wrote them (map_blocks rebuilds indexes in pandas' dtypes).
         result = result.assign_coords({c: extra[c] for c in extra.coords})
@@ -208,12 +209,17 @@ class _Job:
         return result
 
 
-def _analyze_block(block: xr.Dataset, job: _Job, fields: list[str]) -> xr.Dataset:
-    """One Dask block through the command line's pipeline (runs on the workers)."""
-    with _BLOCK_LOCK, tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
-        target, _ = job.run(block, tmp)
-        result = _load(target, fields)
-    result = result.reset_coords(drop=True)
+def _analyze_block(block: xr.Dataset, job: _Job, stored: Mapping[str, dict], part: bool) -> xr.Dataset:
+    """One Dask block through the command line's reader and pipeline, in memory (runs on the
+    workers; no file, no netCDF lock, the GIL released while C++ works). Each field is decoded
+    by xarray from its values as the writer stores them (``stored``: the template's encoding,
+    e.g. latent_class as bytes with _FillValue -1), as if the output file had been read."""
+    fields = job.fields_in_memory(block, part)
+    result = xr.Dataset()
+    for name, encoding in stored.items():
+        var = fields[name].variable
+        attrs = {k: v for k, v in encoding.items() if k in _DECODED_ATTRIBUTES}
+        result[name] = xr.conventions.decode_cf_variable(name, xr.Variable(var.dims, var.values, attrs))
     return result.assign_coords({d: block[d] for d in result.dims if d in block.indexes})
 
 
@@ -247,6 +253,32 @@ def _load(path: str, variables: list[str] | None = None) -> xr.Dataset:
     """An output file, loaded into memory and closed."""
     with xr.open_dataset(path) as opened:
         return (opened if variables is None else opened[variables]).load()
+
+
+def _stored(ds: xr.Dataset) -> tuple[list, dict]:
+    """ds's variables as a NetCDF file would store them - xarray's own CF encoding, as
+    ``to_netcdf`` applies it (packing, fill values, times as numbers) - for the C++ reader:
+    (name, dims, dtype, attributes, shape, values) per variable, and the global attributes."""
+    variables, attributes = xr.conventions.encode_dataset_coordinates(_for_reader(ds))
+    variables, attributes = xr.conventions.cf_encoder(variables, attributes)
+    stored = []
+    for name, var in variables.items():
+        values = np.asarray(var.values)
+        numeric = values.dtype.kind in "biuf"
+        stored.append((str(name), [str(d) for d in var.dims], values.dtype.name if numeric else "text",
+                       {str(k): _memory_attribute(v) for k, v in var.attrs.items()}, list(values.shape),
+                       values if numeric else None))
+    return stored, {str(k): _memory_attribute(v) for k, v in attributes.items()}
+
+
+def _memory_attribute(value: Any) -> Any:
+    """An attribute as text or numbers (a list of texts: its first, as the reader reads a file's)."""
+    if isinstance(value, (str, bytes)):
+        return value
+    values = np.atleast_1d(np.asarray(value))
+    if values.dtype.kind in "OUS":
+        return str(values[0]) if values.size else ""
+    return values.astype(np.float64)
 
 
 def _write_metadata(ds: xr.Dataset, path: str) -> None:
