@@ -90,8 +90,9 @@ class InputDataset {
   /// also for an implausible quantity (src/io/plausibility.hpp).
   InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases,
                const InputConventions& conventions = {});
-  /// Read a dataset held in memory by the rules of a file (`dataset` must outlive this object).
-  InputDataset(const MemoryDataset& dataset, const InputAliases& aliases, const InputConventions& conventions = {});
+  /// Read a dataset held in memory by the rules of a file (`dataset` must outlive the result).
+  static std::unique_ptr<InputDataset> from_memory(const MemoryDataset& dataset, const InputAliases& aliases,
+                                                   const InputConventions& conventions = {});
   ~InputDataset();
   InputDataset(const InputDataset&) = delete;
   InputDataset& operator=(const InputDataset&) = delete;
@@ -138,6 +139,7 @@ class InputDataset {
   const Impl& impl() const { return *impl_; }
 
  private:
+  InputDataset();
   std::unique_ptr<Impl> impl_;
 };
 

@@ -861,16 +861,20 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
   check_sampled_columns(*this);  // reads a sample through read_block, which takes the lock itself
 }
 
-InputDataset::InputDataset(const MemoryDataset& dataset, const InputAliases& aliases,
-                           const InputConventions& conventions)
-    : impl_(std::make_unique<Impl>()) {
-  impl_->input_paths = {dataset.name};
-  impl_->paths = {dataset.name};
-  impl_->files.push_back(NcFile::open_memory(dataset));
+InputDataset::InputDataset() : impl_(std::make_unique<Impl>()) {}
+
+std::unique_ptr<InputDataset> InputDataset::from_memory(const MemoryDataset& dataset, const InputAliases& aliases,
+                                                        const InputConventions& conventions) {
+  std::unique_ptr<InputDataset> input(new InputDataset());
+  Impl& impl = *input->impl_;
+  impl.input_paths = {dataset.name};
+  impl.paths = {dataset.name};
+  impl.files.push_back(NcFile::open_memory(dataset));
   // No netCDF-C (nor HDF5) call is made for a dataset in memory, so the netCDF lock is not
   // taken: blocks of several threads are read side by side, beside any other netCDF user.
-  find_inputs(*impl_, aliases, conventions);
-  check_sampled_columns(*this);
+  find_inputs(impl, aliases, conventions);
+  check_sampled_columns(*input);
+  return input;
 }
 
 InputDataset::~InputDataset() = default;

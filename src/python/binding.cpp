@@ -260,7 +260,9 @@ py::dict analyze_dataset(const std::string& name, const py::list& variables, con
     options.level_fields = level_fields;
     options.threads = threads;
     options.part_of_dataset = part_of_dataset;
-    InputDataset input(held->dataset, options.config.aliases, options.config.conventions);
+    const std::unique_ptr<InputDataset> read =
+        InputDataset::from_memory(held->dataset, options.config.aliases, options.config.conventions);
+    const InputDataset& input = *read;
     const GridDescription& grid = input.grid();
     n_steps = grid.n_steps;
     n_columns = grid.n_columns;
