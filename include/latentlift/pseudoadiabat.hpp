@@ -38,7 +38,8 @@ class Table {
   /// The tables cut at one pressure (interpolated in ln p once): the same values as the
   /// 2-D look-ups at that pressure, for the many look-ups of a grid's fixed levels.
   struct Row {
-    std::vector<double> theta_of_t, theta_of_tv, t_of_theta, tv_of_theta;
+    std::vector<double> theta_of_t, theta_of_tv;  // 4 cubic coefficients per stencil start
+    std::vector<double> t_of_theta, tv_of_theta;  // cut values per theta_w node
   };
   void cut(double ln_pressure_pa, Row& row) const;
   /// theta_w (K) through temp_k at the row's pressure; *dtheta_dt gets the slope if given.

@@ -87,6 +87,25 @@ inline int stencil(double x, double x0, double dx, int n, double& t) {
   return i;
 }
 
+// The ln p interpolation of a table cut: weights wy over four rows `stride` apart.
+inline double cut_value(const double wy[4], const double* r0, std::size_t stride) {
+  return wy[0] * r0[0] + wy[1] * r0[stride] + wy[2] * r0[2 * stride] + wy[3] * r0[3 * stride];
+}
+// The cubic through f(-1), f(0), f(1), f(2) (the stencil of cubic_weights) as
+// c0 + c1 t + c2 t^2 + c3 t^3: the same polynomial, evaluated by Horner's rule.
+inline void cubic_coefficients(const double f[4], double c[4]) {
+  constexpr double kSixth = 1.0 / 6.0;
+  c[0] = f[1];
+  c[1] = f[2] - f[0] * (1.0 / 3.0) - f[1] * 0.5 - f[3] * kSixth;
+  c[2] = (f[0] + f[2]) * 0.5 - f[1];
+  c[3] = (f[3] - f[0]) * kSixth + (f[1] - f[2]) * 0.5;
+}
+// Value at t of the cubic c; *slope (if given) gets its derivative divided by the node spacing dx.
+inline double eval_cubic(const double c[4], double t, double dx, double* slope) {
+  if (slope) *slope = (c[1] + t * (2.0 * c[2] + 3.0 * c[3] * t)) / dx;
+  return c[0] + t * (c[1] + t * (c[2] + t * c[3]));
+}
+
 }  // namespace
 
 double reference_follow_k(double temp_k, double from_pa, double to_pa) {
@@ -216,21 +235,13 @@ double Table::interp(const std::vector<double>& values, const Grid& gx, double x
   cubic_weights(ty, wy);
   const size_t stride = static_cast<size_t>(gx.nx);
   const double* r0 = values.data() + static_cast<size_t>(iy) * stride + ix;
-  const double* r1 = r0 + stride;
-  const double* r2 = r1 + stride;
-  const double* r3 = r2 + stride;
-  // Interpolate in ln p first (four columns), then along the other coordinate.
+  // Interpolate in ln p first (four columns), then along the other coordinate with the
+  // same cubic as a cut row (Table::cut), so that both paths give the same bits.
   double col[4];
-  for (int k = 0; k < 4; ++k) col[k] = wy[0] * r0[k] + wy[1] * r1[k] + wy[2] * r2[k] + wy[3] * r3[k];
-  double wx[4];
-  cubic_weights(tx, wx);
-  const double v = wx[0] * col[0] + wx[1] * col[1] + wx[2] * col[2] + wx[3] * col[3];
-  if (dvdx) {
-    double dx[4];
-    cubic_derivative_weights(tx, dx);
-    *dvdx = (dx[0] * col[0] + dx[1] * col[1] + dx[2] * col[2] + dx[3] * col[3]) / gx.dx;
-  }
-  return v;
+  for (int k = 0; k < 4; ++k) col[k] = cut_value(wy, r0 + k, stride);
+  double c[4];
+  cubic_coefficients(col, c);
+  return eval_cubic(c, tx, gx.dx, dvdx);
 }
 
 double Table::temperature_k(double theta_w_k, double ln_pressure_pa) const {
@@ -266,29 +277,30 @@ void Table::cut(double ln_pressure_pa, Row& row) const {
   auto cut_one = [&](const std::vector<double>& values, int nx, std::vector<double>& out) {
     out.resize(static_cast<size_t>(nx));
     const double* r0 = values.data() + static_cast<size_t>(iy) * nx;
-    for (int k = 0; k < nx; ++k)
-      out[k] = wy[0] * r0[k] + wy[1] * r0[k + nx] + wy[2] * r0[k + 2 * nx] + wy[3] * r0[k + 3 * nx];
+    for (int k = 0; k < nx; ++k) out[k] = cut_value(wy, r0 + k, static_cast<std::size_t>(nx));
   };
-  cut_one(theta_of_t_, temp_.nx, row.theta_of_t);
-  cut_one(theta_of_tv_, tv_.nx, row.theta_of_tv);
+  // The inverse tables are looked up along the cut as cubics per stencil start (coefficients
+  // from the cut values exactly as interp() forms them: the same bits as a 2-D look-up).
+  auto cubics = [](const std::vector<double>& cut_values, std::vector<double>& out) {
+    const std::size_t n = cut_values.size();
+    out.assign(4 * (n - 3), 0.0);
+    for (std::size_t i = 0; i + 3 < n; ++i) cubic_coefficients(&cut_values[i], &out[4 * i]);
+  };
+  std::vector<double> values;
+  cut_one(theta_of_t_, temp_.nx, values);
+  cubics(values, row.theta_of_t);
+  cut_one(theta_of_tv_, tv_.nx, values);
+  cubics(values, row.theta_of_tv);
   cut_one(t_of_theta_, theta_.nx, row.t_of_theta);
   cut_one(tv_of_theta_, theta_.nx, row.tv_of_theta);
 }
 
 namespace {
 // Cubic interpolation along one cut row (the second half of the 2-D look-up).
-inline double along_row(const std::vector<double>& row, double x0, double dx, int nx, double x, double* slope) {
+inline double along_row(const std::vector<double>& cubics, double x0, double dx, int nx, double x, double* slope) {
   double t;
   const int i = stencil(x, x0, dx, nx, t);
-  const double* c = row.data() + i;
-  double w[4];
-  cubic_weights(t, w);
-  if (slope) {
-    double d[4];
-    cubic_derivative_weights(t, d);
-    *slope = (d[0] * c[0] + d[1] * c[1] + d[2] * c[2] + d[3] * c[3]) / dx;
-  }
-  return w[0] * c[0] + w[1] * c[1] + w[2] * c[2] + w[3] * c[3];
+  return eval_cubic(&cubics[4 * static_cast<std::size_t>(i)], t, dx, slope);
 }
 }  // namespace
 

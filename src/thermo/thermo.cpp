@@ -5,20 +5,9 @@
 
 namespace latentlift::thermo {
 
-namespace {
-// Bolton (1980) eq. 10 coefficients: es = 6.112 hPa exp(17.67 t / (t + 243.5)), t in degC.
-constexpr double kEs0Pa = 611.2;
-constexpr double kEsA = 17.67;
-constexpr double kEsB = 243.5;
-}  // namespace
 
 double latent_heat_vaporisation(double temp_k) {
   return (2.501 - 0.00237 * (temp_k - kZeroCelsiusK)) * 1.0e6;  // Bolton (1980) eq. 2
-}
-
-double saturation_vapour_pressure_pa(double temp_k) {
-  const double t = temp_k - kZeroCelsiusK;
-  return kEs0Pa * std::exp(kEsA * t / (t + kEsB));
 }
 
 double saturation_vapour_pressure_ice_pa(double temp_k) {
@@ -80,32 +69,9 @@ double surface_pressure_from_height_pa(int n_levels, const double* p, const doub
   }
 }
 
-double dew_point_k(double vapour_pressure_pa) {
-  const double l = std::log(vapour_pressure_pa / kEs0Pa);
-  return kZeroCelsiusK + kEsB * l / (kEsA - l);
-}
-
-double mixing_ratio(double vapour_pressure_pa, double pressure_pa) {
-  return kEps * vapour_pressure_pa / (pressure_pa - vapour_pressure_pa);
-}
-
-double vapour_pressure_from_mixing_ratio_pa(double r, double pressure_pa) {
-  return r * pressure_pa / (kEps + r);
-}
-
-double vapour_pressure_from_specific_humidity_pa(double q, double pressure_pa) {
-  return q * pressure_pa / (kEps + (1.0 - kEps) * q);
-}
-
 double saturation_mixing_ratio(double temp_k, double pressure_pa) {
   return mixing_ratio(saturation_vapour_pressure_pa(temp_k), pressure_pa);
 }
-
-double virtual_temperature_k(double temp_k, double r) {
-  return temp_k * (1.0 + r / kEps) / (1.0 + r);
-}
-
-double poisson_kappa(double r) { return kKappaDry * (1.0 - 0.28 * r); }
 
 double poisson_temperature_k(double temp_k, double from_pa, double to_pa, double kappa) {
   return temp_k * std::pow(to_pa / from_pa, kappa);
@@ -113,11 +79,6 @@ double poisson_temperature_k(double temp_k, double from_pa, double to_pa, double
 
 double potential_temperature_k(double temp_k, double pressure_pa, double r) {
   return poisson_temperature_k(temp_k, pressure_pa, kReferencePressurePa, poisson_kappa(r));
-}
-
-double lcl_temperature_k(double temp_k, double dew_point_k) {
-  // Bolton (1980) eq. 15.
-  return 1.0 / (1.0 / (dew_point_k - 56.0) + std::log(temp_k / dew_point_k) / 800.0) + 56.0;
 }
 
 double lcl_pressure_pa(double temp_k, double pressure_pa, double lcl_temp_k, double r) {
