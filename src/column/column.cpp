@@ -143,6 +143,7 @@ struct Segment {
   const Table::Row* mid_row;    // the tables cut at the layer midpoint (or null)
   Quadratic sat, sat_eps;
   double min_sat, min_sat_eps;  // over the whole layer
+  double env_mid, env_top;      // environment buoyancy temperature at s = 1/2 and s = 1 (K)
 };
 
 // Cuts of the pseudo-adiabat tables at the pressures met so far. A grid's columns share
@@ -370,10 +371,10 @@ struct ColumnAnalyzer::Impl {
     auto piece = [&](int k, double xa, double xb, double& ba) {
       const bool whole_layer = xa == levels[k].lnp && xb == levels[k + 1].lnp;
       const double xm = 0.5 * (xa + xb);
-      const double bm = whole_layer ? parcel_buoyancy_temp(pc, curve, xm, segs[k].mid_row) - env_buoyancy_temp(k, 0.5)
+      const double bm = whole_layer ? parcel_buoyancy_temp(pc, curve, xm, segs[k].mid_row) - segs[k].env_mid
                                     : buoyancy(k, xm);
       const double bb = xb == levels[k + 1].lnp
-                            ? parcel_buoyancy_temp(pc, curve, xb, levels[k + 1].row) - env_buoyancy_temp(k, 1.0)
+                            ? parcel_buoyancy_temp(pc, curve, xb, levels[k + 1].row) - segs[k].env_top
                             : buoyancy(k, xb);
       const Quadratic q = Quadratic::through(ba, bm, bb);
       const double width = xa - xb;
@@ -674,6 +675,8 @@ struct ColumnAnalyzer::Impl {
       sg.sat_eps = Quadratic::through(a.sat_eps, sat_m + eps * slope, b.sat_eps);
       sg.min_sat = sg.sat.min_on(0, 1);
       sg.min_sat_eps = sg.sat_eps.min_on(0, 1);
+      sg.env_mid = env_buoyancy_temp(k, 0.5);  // the nodes every ascent through the layer meets
+      sg.env_top = env_buoyancy_temp(k, 1.0);
     }
     for (int k = static_cast<int>(segs.size()) - 1; k >= 0; --k)
       suffix_eps[k] = std::min(segs[k].min_sat_eps, k + 1 < static_cast<int>(segs.size()) ? suffix_eps[k + 1] : segs[k].min_sat_eps);
