@@ -124,8 +124,13 @@ class InputDataset {
   /// chunks read raw, inflated outside the netCDF lock): every thread calling it for the same
   /// step shares the chunks; returns when all are decoded. No-op where netCDF-C reads the input.
   void decode_step(std::size_t step) const;
+  /// decode_step(step) on every OpenMP thread of the caller (they share the chunks).
+  void decode_step_on_all_threads(std::size_t step) const;
   /// Free the values decode_step kept for `step` (read_block of it reads the file again).
   void release_step(std::size_t step) const;
+  /// Free every decoded step but `step` (the sample steps the constructor decoded, when a run
+  /// starts elsewhere).
+  void release_steps_except(std::size_t step) const;
   /// Number of input variables read through decode_step rather than netCDF-C (0 to 4 per file set).
   std::size_t directly_read_variables() const;
 

@@ -57,6 +57,7 @@ int run_analyze(const AnalyzeArgs& args) {
     parallel::set_threads(threads);
     pseudoadiabat::Table::instance();
   });
+  if (threads > 0) parallel::set_threads(threads);  // opening the input inflates its first step on them
   InputDataset input(args.inputs, options.config.aliases, options.config.conventions);
   warn_without_surface_pressure(input, "analyze");
   OutputOptions output_options;

@@ -14,6 +14,7 @@
 #include <memory>
 #include <thread>
 
+#include "io/first_failure.hpp"
 #include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/parallel.hpp"
@@ -79,22 +80,7 @@ void timed_wait(std::future<void>& f, double& seconds) {
   seconds += seconds_since(start);
 }
 
-/// The first exception thrown inside an OpenMP region (an exception must not leave one).
-class FirstFailure {
- public:
-  void capture() {  // call from a catch block
-#ifdef LATENTLIFT_HAVE_OPENMP
-#pragma omp critical(latentlift_pipeline_failure)
-#endif
-    if (!failure_) failure_ = std::current_exception();
-  }
-  void rethrow() const {
-    if (failure_) std::rethrow_exception(failure_);
-  }
-
- private:
-  std::exception_ptr failure_;
-};
+using io::detail::FirstFailure;
 
 constexpr std::size_t kScalarFields = kScalarFieldCount;
 
@@ -188,7 +174,7 @@ class Runner {
     bool any_t = false, any_h = false, any_z = false;
     {  // compressed inputs: every thread inflates this step's chunks (most are done if it was prefetched)
       const auto start = std::chrono::steady_clock::now();
-      decode_on_all_threads(step);
+      input_.decode_step_on_all_threads(step);
       input_wait_seconds += seconds_since(start);
     }
     if (next_step != kNoStep) {  // inflate the next step on the decoder thread while this one is analysed
@@ -227,22 +213,6 @@ class Runner {
     for (auto& w : block_writes_) timed_wait(w, output_wait_seconds);
     block_writes_.clear();
     if (!options_.part_of_dataset && (!any_t || !any_h || !any_z)) input_.throw_all_missing(step, any_t, any_h, any_z);
-  }
-
-  /// InputDataset::decode_step on every OpenMP thread (they share the chunks).
-  void decode_on_all_threads(std::size_t step) {
-    FirstFailure failure;
-#ifdef LATENTLIFT_HAVE_OPENMP
-#pragma omp parallel
-#endif
-    {
-      try {
-        input_.decode_step(step);
-      } catch (...) {
-        failure.capture();
-      }
-    }
-    failure.rethrow();
   }
 
   void prepare_levels(LevelFieldBlock& levels, ColumnRange range, int nz) {
@@ -394,6 +364,7 @@ RunSummary analyze_to_file(const InputDataset& input, const std::string& output,
     std::future<void> writes[2];
     const std::size_t n = writer.n_steps();
     const std::size_t buffers = writer.writes_by_block() ? 1 : 2;
+    if (n > 0) input.release_steps_except(writer.input_step(0));  // the input's sample, if not used first
     try {
       for (std::size_t s = 0; s < n; ++s) {
         FieldSet& current = fields[s % buffers];
@@ -457,6 +428,7 @@ RunSummary analyze_in_memory(
                     fields.stability_class_levels.begin() + static_cast<std::ptrdiff_t>(k * n + block.range.begin));
     };
   const std::vector<std::size_t> steps = steps_of_times(grid, options.time_indices);
+  if (!steps.empty()) input.release_steps_except(steps[0]);  // the input's sample, if not used first
   for (std::size_t i = 0; i < steps.size(); ++i) {
     current_step = steps[i];
     if (options.level_fields) fields.stability_class_levels.assign(nz * grid.n_columns, kByteMissing);

@@ -10,6 +10,7 @@
 #include <sstream>
 
 #include "io/dataset_impl.hpp"
+#include "io/first_failure.hpp"
 #include "io/plausibility.hpp"
 #include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
@@ -1155,6 +1156,34 @@ void InputDataset::decode_step(std::size_t step) const {
   decoded->job->help_and_wait();
 }
 
+void InputDataset::decode_step_on_all_threads(std::size_t step) const {
+  d::FirstFailure failure;
+#ifdef LATENTLIFT_HAVE_OPENMP
+#pragma omp parallel
+#endif
+  {
+    try {
+      decode_step(step);
+    } catch (...) {
+      failure.capture();
+    }
+  }
+  failure.rethrow();
+}
+
+void InputDataset::release_steps_except(std::size_t step) const {
+  std::map<std::size_t, std::shared_ptr<d::DecodedStep>> released;  // freed outside the lock
+  std::lock_guard<std::mutex> lock(impl_->decoded_mutex);
+  for (auto it = impl_->decoded.begin(); it != impl_->decoded.end();) {
+    if (it->first == step) {
+      ++it;
+      continue;
+    }
+    released.insert(*it);
+    it = impl_->decoded.erase(it);
+  }
+}
+
 void InputDataset::release_step(std::size_t step) const {
   std::shared_ptr<d::DecodedStep> released;  // freed outside the lock
   std::lock_guard<std::mutex> lock(impl_->decoded_mutex);
@@ -1258,6 +1287,10 @@ void check_sampled_columns(const InputDataset& input) {
     sample.height = origin_of(impl, segment.height);
     sample.surface_pressure = origin_of(impl, segment.surface_pressure);
     ColumnBlock block;
+    // Compressed inputs: the sample step is inflated on every thread and kept for the run,
+    // which starts with it (netCDF-C would inflate every chunk the sample touches - with one
+    // chunk per level map, all of them - on this thread alone).
+    input.decode_step_on_all_threads(step);
     for (const ColumnRange& range : ranges) {
       input.read_block(step, range, block);
       sample.n_columns += range.count;
