@@ -327,33 +327,6 @@ py::dict analyze_dataset(const std::string& name, const py::list& variables, con
   return out;
 }
 
-/// `latentlift analyze` on files: the reader, pipeline and writer of the command line.
-py::dict analyze_files(const std::vector<std::string>& inputs, const std::string& output,
-                       const std::string& config_path, const std::vector<std::string>& overrides, bool level_fields,
-                       int threads, const std::string& history, int deflate_level) {
-  RunSummary summary;
-  {
-    py::gil_scoped_release release;
-    PipelineOptions options;
-    options.config = load_config(config_path, overrides);
-    if (deflate_level >= 0) options.config.deflate_level = deflate_level;
-    options.level_fields = level_fields;
-    options.threads = threads;
-    InputDataset input(inputs, options.config.aliases, options.config.conventions);
-    OutputOptions output_options;
-    output_options.overwrite = true;
-    output_options.history = history;
-    output_options.settings = config_to_toml(load_config(config_path, overrides));
-    summary = analyze_to_file(input, output, options, output_options);
-  }
-  py::dict out;
-  out["qc"] = qc_dict(summary.qc);
-  out["steps"] = summary.steps;
-  out["columns"] = summary.columns;
-  out["seconds"] = summary.seconds;
-  return out;
-}
-
 /// The output file of `analyze` with every variable, attribute and coordinate but no field
 /// values written: what the command line would write, as a template for a lazy result.
 void write_output_template(const std::vector<std::string>& inputs, const std::string& output,
@@ -410,9 +383,6 @@ PYBIND11_MODULE(_core, m) {
         py::arg("part_of_dataset") = false,
         "latentlift analyze on a dataset held in memory (variables as stored: name, dims, dtype, attributes, shape, "
         "values): fields per outer step, [step, (level,) column], and the QC counts");
-  m.def("analyze_files", &analyze_files, py::arg("inputs"), py::arg("output"), py::arg("config_path"),
-        py::arg("overrides"), py::arg("level_fields"), py::arg("threads"), py::arg("history"),
-        py::arg("deflate_level") = -1, "latentlift analyze INPUT... -o OUTPUT, in process");
   m.def("write_output_template", &write_output_template, py::arg("inputs"), py::arg("output"),
         py::arg("config_path"), py::arg("overrides"), py::arg("level_fields"), py::arg("history"),
         "The output file of analyze without field values (variables, attributes, coordinates, grid mapping)");

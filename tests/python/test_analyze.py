@@ -83,3 +83,40 @@ def test_mu_parcel_keyword_acts_like_the_set_option(cli_output):
     with xr.open_dataset(path) as ds:
         result = latentlift.analyze(ds, mu_parcel="max_theta_w")
     assert_same_output(result, cli_output(path, "--set", "analysis.mu_parcel=max_theta_w"))
+
+
+def test_the_gil_is_released_while_a_dask_block_is_analysed():
+    # A Dask block is analysed by one C++ call on the dataset in memory; a second Python
+    # thread keeps running meanwhile (with the GIL held it would stop for the whole call).
+    import threading
+    import time
+
+    path = SAMPLE_GRIDS["lambert"]
+    with xr.open_dataset(path) as ds:
+        ds = ds.load()
+    job = latentlift.datasets._Job(ds, None, [], False, 1)
+    start = time.perf_counter()
+    job.fields_in_memory(ds)
+    single = time.perf_counter() - start
+    repeats = max(1, int(np.ceil(0.6 / single)))
+    big = xr.concat([ds.assign_coords(time=ds["time"] + np.timedelta64(6 * len(ds["time"]) * i, "h"))
+                     for i in range(repeats)], "time")
+    ticks, done = [], threading.Event()
+
+    def ticker():
+        while not done.is_set():
+            ticks.append(time.perf_counter())
+
+    side = threading.Thread(target=ticker)
+    side.start()
+    time.sleep(0.01)
+    call_start = time.perf_counter()
+    computed = job.fields_in_memory(big)
+    call = time.perf_counter() - call_start
+    done.set()
+    side.join()
+    assert computed["mu_cape"].shape[0] == repeats * ds.dims["time"]
+    inside = np.array([t for t in ticks if call_start <= t <= call_start + call])
+    gaps = np.diff(np.concatenate([[call_start], inside, [call_start + call]]))
+    assert call > 0.3
+    assert gaps.max() < 0.5 * call, (gaps.max(), call)

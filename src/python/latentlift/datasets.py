@@ -122,15 +122,6 @@ class _Job:
         self.threads = threads
         self.history = "latentlift.analyze (Python) on " + self.name
 
-    def run(self, ds: xr.Dataset, tmp: str, deflate_level: int = 0) -> tuple[str, dict]:
-        """The command line's pipeline on ds (written to tmp); the output file and run summary."""
-        source = os.path.join(tmp, "input.nc")
-        target = os.path.join(tmp, "output.nc")
-        _write_for_reader(ds, source)
-        summary = _translated({source: self.name}, _core.analyze_files, [source], target, self.config,
-                              self.overrides, self.level_fields, self.threads, self.history, deflate_level)
-        return target, summary
-
     def fields_in_memory(self, ds: xr.Dataset, part_of_dataset: bool = False) -> xr.Dataset:
         """The fields of ds (held in memory, numeric values) as a Dataset on ds's dimensions,
         the QC counts of the run in its attributes (``qc_...``). part_of_dataset: ds is one
@@ -152,12 +143,22 @@ class _Job:
         return result
 
     def analyze_now(self, ds: xr.Dataset) -> xr.Dataset:
-        with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
-            target, _ = self.run(ds, tmp)
-            result = _load(target)
+        """The whole dataset in memory (one part): the template's metadata, the fields of the
+        run and its QC counts, as the command line's output file reads."""
+        template, fields, _ = self.template(ds)
+        computed = self.fields_in_memory(ds)
+        result = template.copy()
+        for name, var in _decoded(computed, {name: template[name].encoding for name in fields}).items():
+            result[name] = result[name].copy(data=var.transpose(*result[name].dims).values)
+        for key, value in computed.attrs.items():  # the run's QC counts, in the writer's places and types
+            if key in result.attrs:
+                result.attrs[key] = np.asarray(value, dtype=np.asarray(result.attrs[key]).dtype)[()]
         return self._finish(result)
 
-    def analyze_lazily(self, ds: xr.Dataset) -> xr.Dataset:
+    def template(self, ds: xr.Dataset) -> tuple[xr.Dataset, list[str], str]:
+        """What the writer writes for ds before any field value (variables, attributes,
+        coordinates, grid mapping; QC counts 0), with level fields only if asked for; the
+        names of the fields and of the pressure dimension."""
         with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
             source = os.path.join(tmp, "metadata.nc")
             target = os.path.join(tmp, "template.nc")
@@ -172,7 +173,10 @@ class _Job:
             template = template.drop_vars([v for v in template.data_vars if vertical in template[v].dims])
             template = template.drop_dims(vertical, errors="ignore")
         fields = [v for v in template.data_vars if template[v].dims]
+        return template, fields, vertical
 
+    def analyze_lazily(self, ds: xr.Dataset) -> xr.Dataset:
+        template, fields, vertical = self.template(ds)
         ds = ds.unify_chunks().chunk({vertical: -1})
         chunks = dict(ds.chunks)
         blocks = xr.Dataset(coords={d: ds[d] for d in template.dims if d in ds.indexes})
@@ -214,13 +218,19 @@ def _analyze_block(block: xr.Dataset, job: _Job, stored: Mapping[str, dict], par
     workers; no file, no netCDF lock, the GIL released while C++ works). Each field is decoded
     by xarray from its values as the writer stores them (``stored``: the template's encoding,
     e.g. latent_class as bytes with _FillValue -1), as if the output file had been read."""
-    fields = job.fields_in_memory(block, part)
+    result = _decoded(job.fields_in_memory(block, part), stored)
+    return result.assign_coords({d: block[d] for d in result.dims if d in block.indexes})
+
+
+def _decoded(fields: xr.Dataset, stored: Mapping[str, Mapping[str, Any]]) -> xr.Dataset:
+    """The fields named in ``stored`` decoded by xarray from their values as the writer stores
+    them (``stored``: each field's encoding in the template), as if read from the output file."""
     result = xr.Dataset()
     for name, encoding in stored.items():
         var = fields[name].variable
         attrs = {k: v for k, v in encoding.items() if k in _DECODED_ATTRIBUTES}
         result[name] = xr.conventions.decode_cf_variable(name, xr.Variable(var.dims, var.values, attrs))
-    return result.assign_coords({d: block[d] for d in result.dims if d in block.indexes})
+    return result
 
 
 def _is_lazy(ds: xr.Dataset) -> bool:
@@ -283,14 +293,16 @@ def _memory_attribute(value: Any) -> Any:
 
 def _write_metadata(ds: xr.Dataset, path: str) -> None:
     """A NetCDF file with ds's dimensions, variables and attributes, and the values of
-    everything but its Dask-backed data variables (left unwritten): what the reader and
-    writer need to decide everything but the field values."""
+    everything but its fields (left unwritten): what the reader and writer need to decide
+    everything but the field values."""
     import netCDF4
 
     prepared = _for_reader(ds)
     variables, attributes = xr.conventions.encode_dataset_coordinates(prepared)
     variables, attributes = xr.conventions.cf_encoder(variables, attributes)
-    lazy = {name for name, var in ds.data_vars.items() if var.chunks is not None}
+    # Left unwritten: lazy data, and fields of 3 or more dimensions (their values are read in
+    # memory, not from this file; coordinates, 2-D lat/lon and the grid mapping are written).
+    lazy = {name for name, var in ds.data_vars.items() if var.chunks is not None or var.ndim >= 3}
     # Values computed before taking the lock: Dask reads of the inputs take it themselves.
     values = {name: np.asarray(var.values) for name, var in variables.items() if name not in lazy}
     with _NETCDF_LOCK, netCDF4.Dataset(path, "w", format="NETCDF4") as nc:
