@@ -71,7 +71,7 @@ struct MemoryVariable {
   std::vector<std::size_t> shape;  // lengths, one per dimension
   StoredType type = StoredType::float64;
   geo::AttributeList attributes;
-  const double* values = nullptr;  // row-major (product of shape values); not owned; nullptr for text
+  const double* values = nullptr;  // row-major (product of shape values); not owned; nullptr: text or not given
 };
 
 /// A dataset held in memory (e.g. one block of an xarray dataset): what a NetCDF file would hold,
@@ -91,8 +91,11 @@ class InputDataset {
   InputDataset(const std::vector<std::string>& paths, const InputAliases& aliases,
                const InputConventions& conventions = {});
   /// Read a dataset held in memory by the rules of a file (`dataset` must outlive the result).
+  /// check_sample false: the quantities are not judged on sampled columns (a part of a dataset
+  /// judged as a whole elsewhere, or a description without field values).
   static std::unique_ptr<InputDataset> from_memory(const MemoryDataset& dataset, const InputAliases& aliases,
-                                                   const InputConventions& conventions = {});
+                                                   const InputConventions& conventions = {},
+                                                   bool check_sample = true);
   ~InputDataset();
   InputDataset(const InputDataset&) = delete;
   InputDataset& operator=(const InputDataset&) = delete;

@@ -865,7 +865,7 @@ InputDataset::InputDataset(const std::vector<std::string>& input_paths, const In
 InputDataset::InputDataset() : impl_(std::make_unique<Impl>()) {}
 
 std::unique_ptr<InputDataset> InputDataset::from_memory(const MemoryDataset& dataset, const InputAliases& aliases,
-                                                        const InputConventions& conventions) {
+                                                        const InputConventions& conventions, bool check_sample) {
   std::unique_ptr<InputDataset> input(new InputDataset());
   Impl& impl = *input->impl_;
   impl.input_paths = {dataset.name};
@@ -874,7 +874,7 @@ std::unique_ptr<InputDataset> InputDataset::from_memory(const MemoryDataset& dat
   // No netCDF-C (nor HDF5) call is made for a dataset in memory, so the netCDF lock is not
   // taken: blocks of several threads are read side by side, beside any other netCDF user.
   find_inputs(impl, aliases, conventions);
-  check_sampled_columns(*input);
+  if (check_sample) check_sampled_columns(*input);
   return input;
 }
 

@@ -211,7 +211,8 @@ geo::AttributeList attributes_of(const py::dict& attributes) {
   return out;
 }
 
-/// variables: (name, dims, dtype name, attributes, values or None) per variable, values as stored.
+/// variables: (name, dims, dtype name, attributes, shape, values or None) per variable, values as
+/// stored; None: text, or values not given (reading them is an error).
 std::unique_ptr<HeldDataset> held_dataset_of(const std::string& name, const py::list& variables,
                                              const py::dict& attributes) {
   auto held = std::make_unique<HeldDataset>();
@@ -227,7 +228,7 @@ std::unique_ptr<HeldDataset> held_dataset_of(const std::string& name, const py::
     var.shape = t[4].cast<std::vector<std::size_t>>();
     if (var.shape.size() != var.dims.size())
       throw UsageError("variable '" + var.name + "': one length per dimension expected");
-    if (var.type != StoredType::text) {
+    if (var.type != StoredType::text && !t[5].is_none()) {
       DoubleArray values = DoubleArray::ensure(t[5]);
       if (!values || static_cast<std::size_t>(values.size()) !=
                          std::accumulate(var.shape.begin(), var.shape.end(), std::size_t{1}, std::multiplies<>()))
@@ -242,6 +243,35 @@ std::unique_ptr<HeldDataset> held_dataset_of(const std::string& name, const py::
 
 /// `latentlift analyze` on a dataset held in memory: the command line's reader (quantities,
 /// units, checks) and pipeline, no netCDF-C; the fields per outer step as arrays.
+/// The reader on a dataset held in memory without analysing it: its grid's dimensions (outer,
+/// horizontal) and lengths; with check_sample, the quantities judged on sampled columns too.
+py::dict read_dataset(const std::string& name, const py::list& variables, const py::dict& attributes,
+                      const std::string& config_path, const std::vector<std::string>& overrides, bool check_sample) {
+  std::unique_ptr<HeldDataset> held = held_dataset_of(name, variables, attributes);
+  std::vector<std::string> outer_dims, horizontal_dims;
+  std::vector<std::size_t> outer_shape, horizontal_shape;
+  {
+    py::gil_scoped_release release;
+    const RunConfig config = load_config(config_path, overrides);
+    const std::unique_ptr<InputDataset> input =
+        InputDataset::from_memory(held->dataset, config.aliases, config.conventions, check_sample);
+    for (const OuterDimension& dim : input->grid().outer) {
+      outer_dims.push_back(dim.name);
+      outer_shape.push_back(dim.length);
+    }
+    for (const Dimension& dim : input->grid().horizontal) {
+      horizontal_dims.push_back(dim.name);
+      horizontal_shape.push_back(dim.length);
+    }
+  }
+  py::dict out;
+  out["outer_dims"] = outer_dims;
+  out["outer_shape"] = outer_shape;
+  out["horizontal_dims"] = horizontal_dims;
+  out["horizontal_shape"] = horizontal_shape;
+  return out;
+}
+
 py::dict analyze_dataset(const std::string& name, const py::list& variables, const py::dict& attributes,
                          const std::string& config_path, const std::vector<std::string>& overrides, bool level_fields,
                          int threads, bool part_of_dataset) {
@@ -261,7 +291,7 @@ py::dict analyze_dataset(const std::string& name, const py::list& variables, con
     options.threads = threads;
     options.part_of_dataset = part_of_dataset;
     const std::unique_ptr<InputDataset> read =
-        InputDataset::from_memory(held->dataset, options.config.aliases, options.config.conventions);
+        InputDataset::from_memory(held->dataset, options.config.aliases, options.config.conventions, !part_of_dataset);
     const InputDataset& input = *read;
     const GridDescription& grid = input.grid();
     n_steps = grid.n_steps;
@@ -383,6 +413,9 @@ PYBIND11_MODULE(_core, m) {
         py::arg("part_of_dataset") = false,
         "latentlift analyze on a dataset held in memory (variables as stored: name, dims, dtype, attributes, shape, "
         "values): fields per outer step, [step, (level,) column], and the QC counts");
+  m.def("read_dataset", &read_dataset, py::arg("name"), py::arg("variables"), py::arg("attributes"),
+        py::arg("config_path"), py::arg("overrides"), py::arg("check_sample"),
+        "The reader on a dataset held in memory, no analysis: its grid's dimensions (and the sample check)");
   m.def("write_output_template", &write_output_template, py::arg("inputs"), py::arg("output"),
         py::arg("config_path"), py::arg("overrides"), py::arg("level_fields"), py::arg("history"),
         "The output file of analyze without field values (variables, attributes, coordinates, grid mapping)");

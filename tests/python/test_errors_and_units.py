@@ -80,3 +80,19 @@ def test_temperature_in_celsius_and_pressure_in_hpa_are_converted_like_the_comma
     for name in ("mu_cape", "mu_pressure", "latent_layer_depth"):
         np.testing.assert_array_equal(result[name].values, expected[name].values, err_msg=name)
         np.testing.assert_allclose(result[name].values, original[name].values, rtol=1e-4, atol=1e-2, err_msg=name)
+
+
+def test_an_implausible_quantity_in_several_chunks_is_refused_by_analyze_before_computing(tmp_path):
+    # Temperatures in degC labelled K: the whole-dataset sample check (medians of the columns
+    # the command line samples) runs once when analyze is called, with its message.
+    def celsius_labelled_kelvin(ds):
+        ds["ta"].values = ds["ta"].values - 273.15
+        return ds
+
+    path = damaged(tmp_path, celsius_labelled_kelvin)
+    with xr.open_dataset(path, chunks={"time": 1, "lat": 10}) as ds:
+        with pytest.raises(latentlift.InputError) as caught:
+            latentlift.analyze(ds)
+    message = "latentlift: " + str(caught.value)
+    assert message == cli_error(path)
+    assert "median" in message

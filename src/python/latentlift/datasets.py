@@ -142,6 +142,16 @@ class _Job:
         result.attrs = {"qc_" + key: value for key, value in out["qc"].items()}
         return result
 
+    def check_sample(self, ds: xr.Dataset) -> None:
+        """The reader's plausibility check of each quantity as a whole, on the columns the
+        command line samples (three part-rows of the first step; on unstructured grids three
+        runs of cells), computed from the lazy dataset: a few rows, not the dataset."""
+        variables, attributes = _stored(ds, lazy_values=False)
+        grid = _core.read_dataset(self.name, variables, attributes, self.config, self.overrides, False)
+        sample = ds.isel(_sample_positions(grid)).compute()
+        variables, attributes = _stored(sample)
+        _core.read_dataset(self.name, variables, attributes, self.config, self.overrides, True)
+
     def analyze_now(self, ds: xr.Dataset) -> xr.Dataset:
         """The whole dataset in memory (one part): the template's metadata, the fields of the
         run and its QC counts, as the command line's output file reads."""
@@ -190,6 +200,8 @@ class _Job:
             blocks[name] = xr.DataArray(data, dims=var.dims, attrs=var.attrs)
             blocks[name].encoding = _clean_encoding(var.encoding)
         several = any(len(c) > 1 for c in chunks.values())
+        if several:  # the blocks are not judged on samples: the whole dataset is, once, now
+            self.check_sample(ds)
         stored = {name: _clean_encoding(template[name].encoding) for name in fields}
         result = xr.map_blocks(_analyze_block, ds, kwargs={"job": self, "stored": stored, "part": several},
                                template=blocks)
@@ -265,20 +277,42 @@ def _load(path: str, variables: list[str] | None = None) -> xr.Dataset:
         return (opened if variables is None else opened[variables]).load()
 
 
-def _stored(ds: xr.Dataset) -> tuple[list, dict]:
+def _stored(ds: xr.Dataset, lazy_values: bool = True) -> tuple[list, dict]:
     """ds's variables as a NetCDF file would store them - xarray's own CF encoding, as
     ``to_netcdf`` applies it (packing, fill values, times as numbers) - for the C++ reader:
-    (name, dims, dtype, attributes, shape, values) per variable, and the global attributes."""
+    (name, dims, dtype, attributes, shape, values) per variable, and the global attributes.
+    lazy_values False: Dask-backed fields (data variables of 3 or more dimensions) are not
+    computed (None: not given); coordinates and 2-D variables are."""
     variables, attributes = xr.conventions.encode_dataset_coordinates(_for_reader(ds))
     variables, attributes = xr.conventions.cf_encoder(variables, attributes)
     stored = []
     for name, var in variables.items():
-        values = np.asarray(var.values)
-        numeric = values.dtype.kind in "biuf"
-        stored.append((str(name), [str(d) for d in var.dims], values.dtype.name if numeric else "text",
-                       {str(k): _memory_attribute(v) for k, v in var.attrs.items()}, list(values.shape),
+        given = lazy_values or var.chunks is None or name in ds.coords or var.ndim < 3
+        values = np.asarray(var.values) if given else None
+        dtype = var.dtype
+        numeric = dtype.kind in "biuf"
+        stored.append((str(name), [str(d) for d in var.dims], dtype.name if numeric else "text",
+                       {str(k): _memory_attribute(v) for k, v in var.attrs.items()}, list(var.shape),
                        values if numeric else None))
     return stored, {str(k): _memory_attribute(v) for k, v in attributes.items()}
+
+
+def _sample_positions(grid: Mapping[str, Any]) -> dict:
+    """Indices of the columns the reader samples (src/io/reader.cpp check_sampled_columns):
+    the first index of every outer dimension; three rows at 1/4, 2/4 and 3/4 of the grid and
+    their first 1024 columns, or three runs of 1024 cells on an unstructured grid."""
+    positions = {d: [0] for d in grid["outer_dims"]}
+    dims, lengths = list(grid["horizontal_dims"]), list(grid["horizontal_shape"])
+    if len(dims) == 2:
+        positions[dims[0]] = sorted({lengths[0] * q // 4 for q in (1, 2, 3)})
+        positions[dims[1]] = list(range(min(1024, lengths[1])))
+    else:
+        cells = set()
+        for q in (1, 2, 3):
+            begin = lengths[0] * q // 4
+            cells.update(range(begin, min(lengths[0], begin + 1024)))
+        positions[dims[0]] = sorted(cells)
+    return positions
 
 
 def _memory_attribute(value: Any) -> Any:
