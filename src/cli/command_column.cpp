@@ -31,6 +31,7 @@ struct ColumnArgs {
   std::string lat_text, lon_text;
   double lat = 0.0, lon = 0.0;
   std::size_t time = 0;
+  const MemoryDataset* memory = nullptr;  // read instead of the files (the Python module's datasets)
 };
 
 constexpr double kDegToRad = 3.14159265358979323846 / 180.0;
@@ -110,7 +111,10 @@ std::string report(ColumnArgs args) {
   args.lon = parse_degrees(args.lon_text, "--lon", "east");
   if (!(args.lat >= -90.0 && args.lat <= 90.0)) throw UsageError("--lat: expected -90 to 90 degrees");
   RunConfig config = load_config(args.config, args.sets);
-  InputDataset input(args.inputs, config.aliases, config.conventions);
+  const std::unique_ptr<InputDataset> opened =
+      args.memory ? InputDataset::from_memory(*args.memory, config.aliases, config.conventions)
+                  : std::make_unique<InputDataset>(args.inputs, config.aliases, config.conventions);
+  const InputDataset& input = *opened;
   const GridDescription& grid = input.grid();
   if (args.time >= grid.n_times)
     throw UsageError("--time " + std::to_string(args.time) + ": the input has " + std::to_string(grid.n_times) +
@@ -306,12 +310,12 @@ std::string report(ColumnArgs args) {
 
 }  // namespace
 
-std::string column_report(const std::vector<std::string>& inputs, double lat_deg, double lon_deg,
-                          std::size_t time_index, const std::string& format, const std::string& config_path,
-                          const std::vector<std::string>& overrides) {
+namespace {
+
+/// The arguments of `latentlift column` given as values (the library entry points below).
+ColumnArgs report_args(double lat_deg, double lon_deg, std::size_t time_index, const std::string& format,
+                       const std::string& config_path, const std::vector<std::string>& overrides) {
   ColumnArgs args;
-  args.inputs = inputs;
-  for (const std::string& f : inputs) args.input += (args.input.empty() ? "" : " ") + f;
   char text[64];
   std::snprintf(text, sizeof text, "%.17g", lat_deg);
   args.lat_text = text;
@@ -321,6 +325,27 @@ std::string column_report(const std::vector<std::string>& inputs, double lat_deg
   args.format = format;
   args.config = config_path;
   args.sets = overrides;
+  return args;
+}
+
+}  // namespace
+
+std::string column_report(const std::vector<std::string>& inputs, double lat_deg, double lon_deg,
+                          std::size_t time_index, const std::string& format, const std::string& config_path,
+                          const std::vector<std::string>& overrides) {
+  ColumnArgs args = report_args(lat_deg, lon_deg, time_index, format, config_path, overrides);
+  args.inputs = inputs;
+  for (const std::string& f : inputs) args.input += (args.input.empty() ? "" : " ") + f;
+  return report(args);
+}
+
+std::string column_report(const MemoryDataset& dataset, double lat_deg, double lon_deg, std::size_t time_index,
+                          const std::string& format, const std::string& config_path,
+                          const std::vector<std::string>& overrides) {
+  ColumnArgs args = report_args(lat_deg, lon_deg, time_index, format, config_path, overrides);
+  args.memory = &dataset;
+  args.inputs = {dataset.name};
+  args.input = dataset.name;
   return report(args);
 }
 

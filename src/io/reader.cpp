@@ -1324,7 +1324,8 @@ void InputDataset::column_lat_lon(std::vector<double>& lat_deg, std::vector<doub
   const NcFile& file = impl.files[impl.grid_file];
   d::check_memory(file.path(), "", "latitudes and longitudes of " + std::to_string(grid.n_columns) + " columns",
                   4.0 * 8.0 * static_cast<double>(grid.n_columns));
-  std::lock_guard<std::mutex> lock(d::netcdf_mutex());
+  std::unique_lock<std::mutex> lock;  // a dataset in memory needs no netCDF lock
+  if (!d::is_memory_id(file.id())) lock = std::unique_lock<std::mutex>(d::netcdf_mutex());
   if ((impl.lat_var.empty() || impl.lon_var.empty()) && grid.kind == HorizontalKind::projected &&
       !grid.grid_mapping.empty() && d::coordinate_var(file.id(), grid.horizontal[0].name) >= 0 &&
       d::coordinate_var(file.id(), grid.horizontal[1].name) >= 0) {

@@ -376,11 +376,13 @@ void write_output_template(const std::vector<std::string>& inputs, const std::st
   writer.commit(QcCounts{});
 }
 
-std::string column_report(const std::vector<std::string>& inputs, double lat, double lon, std::size_t time,
-                          const std::string& format, const std::string& config_path,
+/// `latentlift column` on a dataset held in memory (see analyze_dataset), as text.
+std::string column_report(const std::string& name, const py::list& variables, const py::dict& attributes, double lat,
+                          double lon, std::size_t time, const std::string& format, const std::string& config_path,
                           const std::vector<std::string>& overrides) {
+  std::unique_ptr<HeldDataset> held = held_dataset_of(name, variables, attributes);
   py::gil_scoped_release release;
-  return cli::column_report(inputs, lat, lon, time, format, config_path, overrides);
+  return cli::column_report(held->dataset, lat, lon, time, format, config_path, overrides);
 }
 
 }  // namespace
@@ -419,6 +421,7 @@ PYBIND11_MODULE(_core, m) {
   m.def("write_output_template", &write_output_template, py::arg("inputs"), py::arg("output"),
         py::arg("config_path"), py::arg("overrides"), py::arg("level_fields"), py::arg("history"),
         "The output file of analyze without field values (variables, attributes, coordinates, grid mapping)");
-  m.def("column_report", &column_report, py::arg("inputs"), py::arg("lat"), py::arg("lon"), py::arg("time"),
-        py::arg("format"), py::arg("config_path"), py::arg("overrides"), "latentlift column, as text");
+  m.def("column_report", &column_report, py::arg("name"), py::arg("variables"), py::arg("attributes"),
+        py::arg("lat"), py::arg("lon"), py::arg("time"), py::arg("format"), py::arg("config_path"),
+        py::arg("overrides"), "latentlift column on a dataset held in memory, as text");
 }

@@ -96,12 +96,9 @@ def column(
     column nearest to the point (bottom up) as a DataFrame, with the column's position and
     summary values (``mu_cape``, ``latent_class`` ...) in ``.attrs``."""
     name = _display_name(ds)
-    with tempfile.TemporaryDirectory(prefix="latentlift-") as tmp:
-        path = os.path.join(tmp, "input.nc")
-        _write_for_reader(ds, path)
-        text = _translated(
-            {path: name}, _core.column_report, [path], float(lat), float(lon), int(time), "json",
-            config_path_of(config), overrides_of(settings, overrides))
+    variables, attributes = _stored(ds)  # in memory, like a Dask block (a lazy dataset is computed)
+    text = _core.column_report(name, variables, attributes, float(lat), float(lon), int(time), "json",
+                               config_path_of(config), overrides_of(settings, overrides))
     report = json.loads(text)
     report["file"] = name
     table = pd.DataFrame(report.pop("levels"))
@@ -265,10 +262,6 @@ def _for_reader(ds: xr.Dataset) -> xr.Dataset:
         var.encoding = _clean_encoding(var.encoding)
     out.encoding = {}
     return out
-
-
-def _write_for_reader(ds: xr.Dataset, path: str) -> None:
-    _for_reader(ds).to_netcdf(path, engine="netcdf4", format="NETCDF4")
 
 
 def _load(path: str, variables: list[str] | None = None) -> xr.Dataset:
