@@ -16,6 +16,8 @@
 #include <utility>
 #include <variant>
 
+#include "io/classic_header.hpp"
+#include "io/global_heap.hpp"
 #include "io/plausibility.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/netcdf_io.hpp"
@@ -202,36 +204,6 @@ void check(int status, const std::string& file, const std::string& what) {
 
 namespace {
 
-/// Classic formats (CDF-1/2/5) read past the end of a truncated file without an error, so
-/// compare the file size with the bytes its variables need (a lower bound: header not counted).
-void check_complete(int ncid, const std::string& path) {
-  int format = 0;
-  if (nc_inq_format(ncid, &format) != NC_NOERR) return;
-  if (format != NC_FORMAT_CLASSIC && format != NC_FORMAT_64BIT_OFFSET && format != NC_FORMAT_CDF5) return;
-  int nvars = 0, unlimited = -1;
-  nc_inq_nvars(ncid, &nvars);
-  nc_inq_unlimdim(ncid, &unlimited);
-  unsigned long long needed = 0;
-  for (int v = 0; v < nvars; ++v) {
-    VarShape shape = var_shape(ncid, v);
-    size_t type_size = 0;
-    nc_inq_type(ncid, var_type(ncid, v), nullptr, &type_size);
-    unsigned long long bytes = type_size;
-    for (size_t length : shape.lengths) bytes *= length;
-    if (shape.dimids.empty() || shape.dimids[0] != unlimited) bytes = (bytes + 3) / 4 * 4;  // padded to 4 bytes
-    needed += bytes;
-  }
-  std::error_code ec;
-  unsigned long long size = std::filesystem::file_size(path, ec);
-  if (!ec && size < needed)
-    throw InputError(path, "", "a complete NetCDF file (its variables need at least " + std::to_string(needed) +
-                                   " bytes, the file has " + std::to_string(size) + "; truncated?)");
-}
-
-}  // namespace
-
-namespace {
-
 /// Why a file could not be opened as NetCDF, from the status and its first bytes.
 std::string open_failure(int status, const std::string& path) {
   std::error_code ec;
@@ -264,6 +236,9 @@ std::string open_failure(int status, const std::string& path) {
 NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
   NcFile file;
   quiet_library_errors();
+  // Damage that netCDF-C 4.9.0 or HDF5 1.10.8 would loop on for ever, refused before they read it.
+  check_classic_header(path, shown_as);
+  check_global_heaps(path, shown_as);
   errno = 0;
   int status = nc_open(path.c_str(), NC_NOWRITE, &file.id_);
   if (status != NC_NOERR) {
@@ -271,7 +246,6 @@ NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
     throw InputError(shown_as.empty() ? path : shown_as, "", open_failure(status, path));
   }
   file.path_ = shown_as.empty() ? path : shown_as;
-  check_complete(file.id_, path);
   return file;
 }
 
