@@ -19,6 +19,7 @@
 #include <tuple>
 
 #include "io/netcdf_util.hpp"
+#include "io/temporary_output.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/grib_grid.hpp"
 
@@ -364,11 +365,12 @@ GribStaging::GribStaging(const std::vector<std::string>& paths) {
 
   // 3. The staged NetCDF file: time, [member], pressure levels per level set, y, x.
   namespace fs = std::filesystem;
-  path_ = (fs::temp_directory_path() / ("latentlift-grib-" + std::to_string(::getpid()) + "-" +
-                                        std::to_string(g_staging_counter++) + ".nc"))
-              .string();
+  staged_ = std::make_unique<ScratchFile>((fs::temp_directory_path() / ("latentlift-grib-" + std::to_string(::getpid()) +
+                                                                        "-" + std::to_string(g_staging_counter++) + ".nc"))
+                                               .string());
+  const std::string& staged_path = staged_->path();
   int ncid = -1;
-  check(nc_create(path_.c_str(), NC_CLOBBER | NC_64BIT_DATA, &ncid), path_, "creating the staged GRIB input");
+  check(nc_create(staged_path.c_str(), NC_CLOBBER | NC_64BIT_DATA, &ncid), staged_path, "creating the staged GRIB input");
   struct NcCloser {
     int id;
     ~NcCloser() {
@@ -376,7 +378,7 @@ GribStaging::GribStaging(const std::vector<std::string>& paths) {
     }
   } closer{ncid};
   try {
-    const std::string& out = path_;
+    const std::string& out = staged_path;
     auto text = [&](int var, const char* name, const std::string& value) {
       check(nc_put_att_text(ncid, var, name, value.size(), value.c_str()), out, name);
     };
@@ -537,15 +539,13 @@ GribStaging::GribStaging(const std::vector<std::string>& paths) {
   } catch (...) {
     if (closer.id >= 0) nc_close(closer.id);
     closer.id = -1;
-    std::error_code ec;
-    fs::remove(path_, ec);
+    staged_.reset();
     throw;
   }
 }
 
-GribStaging::~GribStaging() {
-  std::error_code ec;
-  std::filesystem::remove(path_, ec);
-}
+GribStaging::~GribStaging() = default;
+
+const std::string& GribStaging::path() const { return staged_->path(); }
 
 }  // namespace latentlift::io::detail

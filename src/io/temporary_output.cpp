@@ -9,6 +9,7 @@
 #include <filesystem>
 #include <mutex>
 #include <system_error>
+#include <utility>
 
 #include "latentlift/errors.hpp"
 
@@ -182,6 +183,16 @@ void TemporaryOutput::commit() {
   }
   committed_ = true;
   remove_temporaries();
+}
+
+ScratchFile::ScratchFile(std::string path) : path_(std::move(path)) {
+  install_handlers_once();
+  slot_ = watch(path_);
+}
+
+ScratchFile::~ScratchFile() {
+  ::unlink(path_.c_str());
+  unwatch(slot_);
 }
 
 }  // namespace latentlift::io::detail

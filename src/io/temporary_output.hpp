@@ -54,4 +54,21 @@ class TemporaryOutput {
   void remove_temporaries() noexcept;
 };
 
+/// A scratch file that is never an output (e.g. the NetCDF file GRIB input is staged into):
+/// removed when this object goes out of scope and, like TemporaryOutput's files, when SIGINT,
+/// SIGTERM or SIGHUP end the process. Create the file at path() after constructing this.
+class ScratchFile {
+ public:
+  explicit ScratchFile(std::string path);
+  ~ScratchFile();
+  ScratchFile(const ScratchFile&) = delete;
+  ScratchFile& operator=(const ScratchFile&) = delete;
+
+  const std::string& path() const { return path_; }
+
+ private:
+  std::string path_;
+  int slot_ = -1;  // in the signal handler's table
+};
+
 }  // namespace latentlift::io::detail
