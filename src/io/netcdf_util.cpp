@@ -187,15 +187,21 @@ std::mutex& netcdf_mutex() {
   return mutex;
 }
 
-std::string system_reason(int status, const std::string& file) {
+std::string storage_reason(const std::string& file) {
   // errno belongs to the failing call only when the storage says so: a full or failing disk.
   const int error = errno;
-  const std::filesystem::path parent = std::filesystem::absolute(file).parent_path();
+  std::error_code ec;
+  const std::filesystem::path parent = std::filesystem::absolute(file, ec).parent_path();
   struct statvfs fs {};
   const bool full = statvfs(parent.c_str(), &fs) == 0 && fs.f_bavail == 0;
   if (full || error == ENOSPC) return std::strerror(ENOSPC);
   if (error == EDQUOT || error == EFBIG || error == EIO || error == EROFS) return std::strerror(error);
-  return nc_strerror(status);
+  return "";
+}
+
+std::string system_reason(int status, const std::string& file) {
+  const std::string storage = storage_reason(file);
+  return storage.empty() ? nc_strerror(status) : storage;
 }
 
 void check(int status, const std::string& file, const std::string& what) {

@@ -25,6 +25,11 @@ void quiet_library_errors();
 /// is full (or errno says so), else the netCDF message.
 std::string system_reason(int status, const std::string& file);
 
+/// What the storage says about a failed write of `file` (any writer, e.g. GDAL's): "No space
+/// left on device" when its file system is full or errno is ENOSPC, errno's text for a quota,
+/// size limit, I/O or read-only error, else "".
+std::string storage_reason(const std::string& file);
+
 /// Throw latentlift::Error "<file>: <what>: <nc_strerror>" when status is not NC_NOERR.
 void check(int status, const std::string& file, const std::string& what);
 

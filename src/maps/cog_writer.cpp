@@ -5,13 +5,19 @@
 #include <cpl_conv.h>
 #include <cpl_error.h>
 #include <cpl_string.h>
+#include <cpl_vsi.h>
 #include <gdal.h>
 #include <ogr_srs_api.h>
 
+#include <atomic>
+#include <cerrno>
 #include <cmath>
+#include <cstdio>
+#include <cstring>
 #include <memory>
 #include <mutex>
 
+#include "io/netcdf_util.hpp"
 #include "latentlift/errors.hpp"
 
 namespace latentlift::maps::detail {
@@ -47,9 +53,47 @@ std::string gdal_message() {
   return text && *text ? text : "unknown GDAL error";
 }
 
+// GDAL's COG driver writes its overviews (and masks) to temporary files beside the output
+// (NAME.ovr.tmp) unless CPL_TMPDIR names another folder: /vsimem keeps them in memory.
+struct TemporaryFilesInMemory {
+  std::string previous;
+  bool had_previous = false;
+  TemporaryFilesInMemory() {
+    if (const char* value = CPLGetThreadLocalConfigOption("CPL_TMPDIR", nullptr)) previous = value, had_previous = true;
+    CPLSetThreadLocalConfigOption("CPL_TMPDIR", "/vsimem");
+  }
+  ~TemporaryFilesInMemory() { CPLSetThreadLocalConfigOption("CPL_TMPDIR", had_previous ? previous.c_str() : nullptr); }
+};
+
+/// A file in GDAL's in-memory file system, removed on destruction.
+struct MemoryFile {
+  std::string path;
+  ~MemoryFile() { VSIUnlink(path.c_str()); }
+};
+
+struct FileCloser {
+  void operator()(std::FILE* f) const { std::fclose(f); }
+};
+
+/// Writes n bytes to path; Error naming `name` with the storage's reason (errno) on failure.
+void write_file(const std::string& path, const unsigned char* bytes, std::size_t n, const std::string& name) {
+  auto fail = [&](int error) {
+    errno = error;
+    const std::string storage = io::detail::storage_reason(path);
+    throw Error(name + ": writing the COG: " + (storage.empty() ? std::strerror(error) : storage));
+  };
+  std::unique_ptr<std::FILE, FileCloser> file(std::fopen(path.c_str(), "wb"));
+  if (!file) fail(errno);
+  if (std::fwrite(bytes, 1, n, file.get()) != n) fail(errno);
+  // A full disk often shows only when the buffered rest is written: check the flush and the close.
+  if (std::fflush(file.get()) != 0) fail(errno);
+  if (std::fclose(file.release()) != 0) fail(errno);
+}
+
 }  // namespace
 
-void write_cog(const std::string& path, const CogLayer& layer) {
+void write_cog(const std::string& path, const CogLayer& layer, const std::string& reported_as) {
+  const std::string& name = reported_as.empty() ? path : reported_as;
   static std::once_flag registered;
   std::call_once(registered, [] { GDALAllRegister(); });
   QuietErrors quiet;
@@ -115,8 +159,21 @@ void write_cog(const std::string& path, const CogLayer& layer) {
   options.set("OVERVIEWS", "AUTO");
   options.set("OVERVIEW_RESAMPLING", layer.classes ? "NEAREST" : "AVERAGE");
   options.set("BLOCKSIZE", "256");
-  Dataset written(GDALCreateCopy(cog, path.c_str(), ds, FALSE, options.list, nullptr, nullptr));
-  if (!written) throw Error(path + ": GDAL COG driver: " + gdal_message());
+  // The COG is made in memory (GDAL's messages on a full disk do not say so, and its temporary
+  // overview files would be left behind by a signal), then written out by us with every write
+  // checked.
+  static std::atomic<unsigned> counter{0};
+  MemoryFile in_memory{"/vsimem/latentlift-cog-" + std::to_string(counter++) + ".tif"};
+  {
+    TemporaryFilesInMemory overviews_in_memory;
+    CPLErrorReset();
+    Dataset written(GDALCreateCopy(cog, in_memory.path.c_str(), ds, FALSE, options.list, nullptr, nullptr));
+    if (!written) throw Error(name + ": GDAL COG driver: " + gdal_message());
+  }
+  vsi_l_offset length = 0;
+  const GByte* cog_bytes = VSIGetMemFileBuffer(in_memory.path.c_str(), &length, FALSE);
+  if (!cog_bytes || CPLGetLastErrorType() >= CE_Failure) throw Error(name + ": GDAL COG driver: " + gdal_message());
+  write_file(path, cog_bytes, static_cast<std::size_t>(length), name);
 }
 
 }  // namespace latentlift::maps::detail

@@ -20,7 +20,8 @@ struct CogLayer {
 };
 
 /// Writes the layer to path as a COG (DEFLATE, internal overviews: average for float32, nearest
-/// for classes); Error with GDAL's message on failure.
-void write_cog(const std::string& path, const CogLayer& layer);
+/// for classes; GDAL's own temporary files in memory, none on disk); Error naming `reported_as`
+/// (default: path) with "No space left on device" on a full disk, else GDAL's message.
+void write_cog(const std::string& path, const CogLayer& layer, const std::string& reported_as = "");
 
 }  // namespace latentlift::maps::detail

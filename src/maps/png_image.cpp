@@ -45,12 +45,17 @@ struct FileCloser {
 };
 using FilePtr = std::unique_ptr<std::FILE, FileCloser>;
 
+// libpng's default handlers print to stderr ("libpng error: Write Error"); the failure is
+// reported once by the caller (one line), so errors only jump back and warnings are dropped.
+extern "C" void png_fail_quietly(png_structp png, png_const_charp) { png_longjmp(png, 1); }
+extern "C" void png_warn_quietly(png_structp, png_const_charp) {}
+
 // Owns a png_struct/png_info pair for writing.
 struct PngWriter {
   png_structp png = nullptr;
   png_infop info = nullptr;
   PngWriter() {
-    png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
+    png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, png_fail_quietly, png_warn_quietly);
     if (png) info = png_create_info_struct(png);
   }
   ~PngWriter() { png_destroy_write_struct(&png, &info); }

@@ -143,7 +143,7 @@ void write_cog_layer(const NcFile& in, const VarInfo& field, bool classes, const
     layer.band_times.push_back(t < times.size() ? iso_time(times[t], time_units, calendar) : "");
   }
   io::detail::TemporaryOutput staged(output, options.overwrite);  // removed unless committed
-  write_cog(staged.path(), layer);
+  write_cog(staged.path(), layer, output);
   staged.commit();
 }
 

@@ -34,9 +34,8 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr int kFormatVersion = 1;
 const char* const kTimeUnits = "seconds since 1970-01-01 00:00:00";
 
-void check(int status, const std::string& file, const std::string& what) {
-  if (status != NC_NOERR) throw Error(file + ": " + what + ": " + nc_strerror(status));
-}
+// Write failures say "No space left on device" when the disk is full (src/io/netcdf_util.hpp).
+using io::detail::check;
 
 // The one RAII owner of netCDF ids (src/io/netcdf_util.hpp).
 using Nc = io::detail::NcFile;

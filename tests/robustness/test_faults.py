@@ -1,5 +1,5 @@
 """Faults of the machine and of the surroundings, for every writer (analyze, climatology,
-reproject, quicklook): a full disk, two runs writing one output, signals in the middle of a
+reproject to NetCDF and to a Cloud-Optimized GeoTIFF, quicklook): a full disk, two runs writing one output, signals in the middle of a
 run (with and without --overwrite, and SIGHUP under nohup), a dangling symbolic link and a
 directory as the output. The rules checked are the README's "Outputs" section: an output
 appears complete or not at all, nothing temporary is left, exit 2 for the user's mistakes
@@ -15,8 +15,11 @@ import pytest
 SOURCE_DIR = os.environ.get("LATENTLIFT_SOURCE_DIR", os.path.join(os.path.dirname(__file__), "..", ".."))
 BINARY = os.environ.get("LATENTLIFT_BINARY", os.path.join(SOURCE_DIR, "build", "latentlift"))
 COAST = os.path.join(SOURCE_DIR, "sample_grids", "vessaline_coast_lcc.nc")
+REAL_GRIB = os.path.join(SOURCE_DIR, "..", "shared", "real-data", "ncep-nwp-pressure-levels",
+                         "gfs_2p5deg_20110110_12z_f120.grib2")
 TIMEOUT_S = 300
-WRITERS = ("analyze", "climatology", "reproject", "quicklook")
+WRITERS = ("analyze", "climatology", "reproject", "cog", "quicklook")
+NO_SPACE = "No space left on device"  # strerror(ENOSPC), glibc
 
 
 def run(args, **kwargs):
@@ -41,6 +44,9 @@ def writer_args(writer, target, analysis, overwrite=False):
         args = ["climatology", COAST, "-o", target, "--quiet"]
     elif writer == "reproject":
         args = ["reproject", analysis, "-o", target, "--resolution", "0.05", "--quiet"]
+    elif writer == "cog":
+        args = ["reproject", analysis, "-o", target, "--format", "cog", "--field", "mu_cape", "--resolution", "0.05",
+                "--quiet"]
     else:
         args = ["quicklook", analysis, "--field", "mu_cape", "-o", target, "--quiet"]
     if overwrite:
@@ -54,7 +60,7 @@ def leftovers(folder, keep=()):
 
 
 def target_name(writer):
-    return "map.png" if writer == "quicklook" else "out.nc"
+    return {"quicklook": "map.png", "cog": "map.tif"}.get(writer, "out.nc")
 
 
 # ----------------------------------------------------------------------------- disk full
@@ -92,6 +98,8 @@ def test_disk_full_is_exit_1_without_crash_or_leftovers(writer, analysis, small_
     message = [line for line in done.stderr.splitlines() if line.startswith("latentlift:")]
     assert len(message) == 1, done.stderr[-2000:]
     assert target in message[0] and ".tmp-" not in message[0]
+    assert NO_SPACE.lower() in message[0].lower(), message[0]
+    assert done.stderr.strip() == message[0], "more than the one line: " + done.stderr[-2000:]
 
 
 # ----------------------------------------------------------------------------- runs that overlap
@@ -160,6 +168,69 @@ def test_signal_mid_run_removes_the_temporary_and_keeps_the_old_output(tmp_path,
         assert leftovers(str(tmp_path)) == []
 
 
+def stopped_when_staged(args, folder, name, env=None):
+    """Start a writer, wait until its temporary file exists and stop it there (SIGSTOP), so a
+    short writing phase (GDAL's COG copy) is caught for sure; the caller sends SIGCONT."""
+    process = subprocess.Popen([BINARY] + args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                               stdin=subprocess.DEVNULL, env=env)
+    temporary = os.path.join(folder, name.replace("{pid}", str(process.pid)))
+    deadline = time.monotonic() + 120
+    while not os.path.exists(temporary) and process.poll() is None and time.monotonic() < deadline:
+        time.sleep(0.0002)  # the COG is written out in a few milliseconds
+    process.send_signal(signal.SIGSTOP)
+    return process, temporary
+
+
+def cog_args(analysis, target, overwrite=False):
+    """A COG run whose writing phase is long enough to be caught (a fine grid)."""
+    return (["reproject", analysis, "-o", target, "--format", "cog", "--field", "mu_cape", "--resolution", "0.02",
+             "--quiet"] + (["--overwrite"] if overwrite else []))
+
+
+@pytest.mark.parametrize("signal_number", [signal.SIGINT, signal.SIGTERM], ids=["INT", "TERM"])
+def test_signal_while_writing_a_cog_removes_the_temporary(tmp_path, analysis, signal_number):
+    target = str(tmp_path / "map.tif")
+    process, temporary = stopped_when_staged(cog_args(analysis, target), str(tmp_path), "map.tif.tmp-{pid}")
+    assert process.poll() is None and os.path.exists(temporary), "the run ended before it was stopped"
+    process.send_signal(signal_number)
+    process.send_signal(signal.SIGCONT)
+    process.communicate(timeout=TIMEOUT_S)
+    assert process.returncode == -signal_number
+    assert leftovers(str(tmp_path)) == []
+
+
+def test_two_concurrent_cog_runs_without_overwrite_exactly_one_wins(tmp_path, analysis):
+    target = str(tmp_path / "map.tif")
+    first, _ = stopped_when_staged(cog_args(analysis, target), str(tmp_path), "map.tif.tmp-{pid}")
+    assert first.poll() is None, "the first run ended before it was stopped"
+    second = run(cog_args(analysis, target))  # runs to the end while the first is held
+    assert second.returncode == 0, second.stderr
+    first.send_signal(signal.SIGCONT)
+    _, err = first.communicate(timeout=TIMEOUT_S)
+    assert first.returncode == 2, err
+    assert "appeared while this run was writing it" in err and target in err
+    assert leftovers(str(tmp_path)) == ["map.tif"]
+    info = subprocess.run(["gdalinfo", target], capture_output=True, text=True)
+    assert info.returncode == 0 and "LAYOUT=COG" in info.stdout, info.stdout + info.stderr  # the winner's file
+
+
+@pytest.mark.skipif(not os.path.exists(REAL_GRIB), reason="the real GFS GRIB sample (../shared/real-data) is not here")
+@pytest.mark.parametrize("signal_number", [signal.SIGINT, signal.SIGTERM, signal.SIGHUP], ids=["INT", "TERM", "HUP"])
+def test_signal_mid_run_on_grib_input_leaves_no_staged_file(tmp_path, signal_number):
+    staging = tmp_path / "staging"  # TMPDIR: where GRIB input is staged as NetCDF
+    staging.mkdir()
+    env = dict(os.environ, TMPDIR=str(staging))
+    target = str(tmp_path / "out.nc")
+    process, staged = stopped_when_staged(["analyze", REAL_GRIB, "-o", target, "--quiet", "--threads", "1"],
+                                          str(staging), "latentlift-grib-{pid}-0.nc", env=env)
+    assert process.poll() is None and os.path.exists(staged), "the run ended before it was stopped"
+    process.send_signal(signal_number)
+    process.send_signal(signal.SIGCONT)
+    process.communicate(timeout=TIMEOUT_S)
+    assert process.returncode == -signal_number
+    assert os.listdir(staging) == [] and leftovers(str(tmp_path)) == ["staging"]
+
+
 def test_sighup_under_nohup_is_ignored_and_the_run_completes(tmp_path):
     target = str(tmp_path / "out.nc")
     process = subprocess.Popen(["nohup", BINARY] + slow_analyze(target), stdout=subprocess.PIPE,
@@ -187,7 +258,7 @@ def test_dangling_symlink_is_an_existing_target(writer, analysis, tmp_path):
     assert leftovers(str(tmp_path)) == [os.path.basename(target)]
 
 
-@pytest.mark.parametrize("writer", ["analyze", "reproject", "quicklook"])
+@pytest.mark.parametrize("writer", ["analyze", "reproject", "cog", "quicklook"])
 def test_dangling_symlink_with_overwrite_is_replaced_by_the_output(writer, analysis, tmp_path):
     target = str(tmp_path / target_name(writer))
     os.symlink(str(tmp_path / "nowhere"), target)
