@@ -19,6 +19,7 @@
 #include "io/classic_header.hpp"
 #include "io/global_heap.hpp"
 #include "io/plausibility.hpp"
+#include "io/structure_probe.hpp"
 #include "latentlift/errors.hpp"
 #include "latentlift/netcdf_io.hpp"
 
@@ -245,6 +246,7 @@ NcFile NcFile::open_read(const std::string& path, const std::string& shown_as) {
   // Damage that netCDF-C 4.9.0 or HDF5 1.10.8 would loop on for ever, refused before they read it.
   check_classic_header(path, shown_as);
   check_global_heaps(path, shown_as);
+  probe_netcdf4_structure(path, shown_as);  // a crash or hang of HDF5 on other damage stays in a child
   errno = 0;
   int status = nc_open(path.c_str(), NC_NOWRITE, &file.id_);
   if (status != NC_NOERR) {

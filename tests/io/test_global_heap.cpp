@@ -14,6 +14,7 @@
 
 #include "io/global_heap.hpp"
 #include "io/netcdf_util.hpp"
+#include "io/structure_probe.hpp"
 #include "latentlift/errors.hpp"
 #include "support/test_support.hpp"
 
@@ -90,4 +91,27 @@ TEST(GlobalHeap, CollectionLargerThanTheFileIsRefused) {
 TEST(GlobalHeap, ClassicAndOtherFilesAreLeftToNetcdf) {
   EXPECT_NO_THROW(check_global_heaps(write_bytes("classic.nc", {'C', 'D', 'F', 1, 0, 0, 0, 0})));
   EXPECT_NO_THROW(check_global_heaps(write_bytes("text.nc", {'G', 'C', 'O', 'L', 1, 0, 0, 0, 0})));
+}
+
+TEST(StructureProbe, CleanNetcdf4FilePasses) {
+  const std::string path = write_bytes("probe-clean.nc", netcdf4_with_dimension_scales());
+  EXPECT_NO_THROW(latentlift::io::detail::probe_netcdf4_structure(path));
+}
+
+TEST(StructureProbe, LibraryThatNeverReturnsIsStoppedAndTheFileRefused) {
+  // The zeroed heap object makes HDF5 1.10.8 loop for ever (see above): the probe's child is
+  // killed after its time limit and the parent goes on with an InputError.
+  std::vector<unsigned char> bytes = netcdf4_with_dimension_scales();
+  const std::size_t heap = collection_offset(bytes);
+  ASSERT_LT(heap, bytes.size());
+  std::fill(bytes.begin() + static_cast<std::ptrdiff_t>(heap + 16), bytes.begin() + static_cast<std::ptrdiff_t>(heap + 32), 0);
+  const std::string path = write_bytes("probe-loop.nc", bytes);
+  const auto start = std::chrono::steady_clock::now();
+  try {
+    latentlift::io::detail::probe_netcdf4_structure(path, "forecast.nc", 1.0);
+    FAIL() << "the probe returned on a file HDF5 loops on";
+  } catch (const InputError& error) {
+    EXPECT_NE(std::string(error.what()).find("did not end within 1 s"), std::string::npos) << error.what();
+  }
+  EXPECT_LT(std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count(), 10.0);
 }
