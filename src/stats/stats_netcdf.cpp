@@ -19,6 +19,7 @@
 #include "io/plausibility.hpp"
 #include "io/temporary_output.hpp"
 #include "io/units.hpp"
+#include "maps/source_grid.hpp"
 #include <set>
 #include <sstream>
 #include <utility>
@@ -261,6 +262,9 @@ AnalysisInput scan_analysis_output(const std::string& path) {
     geo::Crs::from_grid_mapping(io::detail::read_attributes(nc.id(), path, mapping), path, in.grid.grid_mapping);
   }
   in.grid.coordinates = text_att(nc.id(), cls, "coordinates");
+  // Its coordinates are checked like those of reproject's and quicklook's inputs (one owner:
+  // maps::detail::grid_of): latitudes within -90..90, longitudes within -360..720, monotonic.
+  if (auto field = io::detail::find_variable(nc, "latent_class")) maps::detail::grid_of(nc, *field);
   for (const auto& spec : field_specs()) {
     const int v = find_var(nc.id(), spec.name);
     if (v < 0) throw InputError(path, spec.name, "a latentlift analyze output field (variable missing)");
