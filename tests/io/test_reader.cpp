@@ -166,6 +166,22 @@ TEST_F(Reader, MarksFillValueAndMissingValueAsNaN) {
   EXPECT_FALSE(std::isnan(at(block.temp_k, 4, 0, 1, 0)));
 }
 
+TEST_F(Reader, MarksEveryValueOfAMissingValueListAsNaN) {
+  // CF conventions 2.5.1: missing_value may be a vector; every value in it marks missing data.
+  // A NaN among them adds nothing (NaN is missing anyway) and is accepted.
+  std::vector<Var> vars = grid.standard();
+  vars[4].atts.push_back({"missing_value", "", {-999.0, -888.0, std::nan("")}});
+  vars[4].data[0] = -999.0;  // time 0, level 0, lat 0, lon 0
+  vars[4].data[1] = -888.0;  // time 0, level 0, lat 0, lon 1
+  test::write_nc(path("in.nc"), grid.dims, vars);
+  InputDataset input({path("in.nc")}, no_aliases());
+  ColumnBlock block;
+  input.read_block(0, {0, 12}, block);
+  EXPECT_TRUE(std::isnan(at(block.temp_k, 4, 0, 0, 0)));
+  EXPECT_TRUE(std::isnan(at(block.temp_k, 4, 0, 1, 0)));
+  EXPECT_FALSE(std::isnan(at(block.temp_k, 4, 0, 2, 0)));
+}
+
 TEST_F(Reader, GivesTheSameColumnsWhateverTheDimensionOrder) {
   test::write_nc(path("a.nc"), grid.dims, grid.standard());
   std::vector<Var> vars = grid.coordinates();

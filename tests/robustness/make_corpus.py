@@ -249,10 +249,17 @@ def model_cases(corpus, bases):
             ds = base.copy()
             ds.vars[r["T"]].attrs.update(attrs)
             corpus.add_dataset("packing_bad_attribute", ds, "model", refuse, point)
-        for attrs in ({"missing_value": "abc"}, {"missing_value": np.array([1.0, np.nan], "f4")}):
+        for attrs in ({"missing_value": "abc"}, {"valid_range": np.array([300.0, 200.0], "f4")}):
             ds = base.copy()
             ds.vars[r["T"]].attrs.update(attrs)
             corpus.add_dataset("fill_bad_attribute", ds, "model", refuse, point)
+        # CF 2.5.1 allows a vector missing_value (NaN in it adds nothing): a valid input
+        ds = base.copy()
+        t = ds.vars[r["T"]]
+        t.attrs["missing_value"] = np.array([-999.0, -888.0, np.nan], "f4")
+        t.data = t.data.copy()
+        t.data.flat[0], t.data.flat[-1] = -999.0, -888.0
+        corpus.add_dataset("fill_missing_value_list", ds, "model", [0], point)
         # packed properly as int16: a valid input
         ds = base.copy()
         t = ds.vars[r["T"]]
