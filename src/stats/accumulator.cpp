@@ -277,7 +277,7 @@ template <class T>
 void get(const std::vector<char>& in, std::size_t& pos, std::vector<T>& v) {
   const std::size_t bytes = v.size() * sizeof(T);
   if (pos + bytes > in.size()) throw Error("climatology: truncated accumulator image");
-  std::memcpy(v.data(), in.data() + pos, bytes);
+  if (bytes > 0) std::memcpy(v.data(), in.data() + pos, bytes);  // an empty vector's data() may be null
   pos += bytes;
 }
 

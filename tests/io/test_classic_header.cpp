@@ -21,12 +21,17 @@ using latentlift::io::detail::check_classic_header;
 
 namespace {
 
+/// A scratch folder of this test alone (ctest runs the tests of one suite in parallel).
+std::string scratch() {
+  return latentlift::test::scratch_dir(std::string("classic_header/") + ::testing::UnitTest::GetInstance()->current_test_info()->name());
+}
+
 void put32(std::vector<unsigned char>& b, std::uint32_t v) {
   for (int shift = 24; shift >= 0; shift -= 8) b.push_back(static_cast<unsigned char>(v >> shift));
 }
 
 std::string write_bytes(const std::string& name, const std::vector<unsigned char>& bytes) {
-  const std::string path = latentlift::test::scratch_dir("classic_header") + "/" + name;
+  const std::string path = scratch() + "/" + name;
   std::ofstream(path, std::ios::binary).write(reinterpret_cast<const char*>(bytes.data()), bytes.size());
   return path;
 }
@@ -48,7 +53,7 @@ std::vector<unsigned char> header_with_attribute(std::uint32_t n_values, std::ui
 /// non-record variable z(lat, lon) of doubles and a record variable t(time, lat, lon) of floats
 /// over 2 records: the layouts of the specification's three variants.
 std::string write_classic(const std::string& name, int format) {
-  const std::string path = latentlift::test::scratch_dir("classic_header") + "/" + name;
+  const std::string path = scratch() + "/" + name;
   int nc = -1, time = -1, lat = -1, lon = -1, z = -1, t = -1;
   EXPECT_EQ(nc_create(path.c_str(), NC_CLOBBER | format, &nc), NC_NOERR);
   nc_def_dim(nc, "time", NC_UNLIMITED, &time);
