@@ -9,6 +9,7 @@
 
 #include "io/netcdf_crs.hpp"  // grid_mapping completion
 #include "io/dataset_impl.hpp"
+#include "io/netcdf_util.hpp"
 #include "io/temporary_output.hpp"
 #include "latentlift/crs.hpp"
 #include "latentlift/errors.hpp"
@@ -93,18 +94,11 @@ void put_text(int ncid, int varid, const char* name, const std::string& value, c
 /// Copy every attribute of a variable (or NC_GLOBAL), except those listed.
 void copy_attributes(int in, int in_var, int out, int out_var, const std::string& file,
                      std::initializer_list<const char*> skip = {}) {
-  int natts = 0;
-  if (in_var == NC_GLOBAL)
-    nc_inq_natts(in, &natts);
-  else
-    nc_inq_varnatts(in, in_var, &natts);
-  for (int a = 0; a < natts; ++a) {
-    char name[NC_MAX_NAME + 1] = {0};
-    nc_inq_attname(in, in_var, a, name);
+  for (const std::string& name : d::attribute_names(in, in_var)) {
     bool skipped = false;
-    for (const char* s : skip) skipped = skipped || std::string(name) == s;
+    for (const char* s : skip) skipped = skipped || name == s;
     if (skipped) continue;
-    d::check(nc_copy_att(in, in_var, name, out, out_var), file, std::string("copying attribute ") + name);
+    d::check(nc_copy_att(in, in_var, name.c_str(), out, out_var), file, "copying attribute " + name);
   }
 }
 
